@@ -206,6 +206,8 @@ class Netting:
     netlist_points_matched: int
     netlist_points_total: int
     faults: list[NetFault] = field(default_factory=list)
+    synthetic_nets: int = 0  # islands no netlist point or X2 name reached, named ``~Lnn@x,y``
+    islands: int = 0  # copper islands found (after joining through plated holes)
 
     @property
     def shorts(self) -> list[NetFault]:

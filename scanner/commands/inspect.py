@@ -1,0 +1,103 @@
+"""``nearfar inspect``: what nearfar read from a board's files, before any scan."""
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+import click
+
+from scanner import load_board
+from scanner.board import Board
+
+#: faults quoted on the terminal (all of them are in --json)
+SHOWN_FAULTS = 10
+
+
+def inspect_data(board: Board) -> dict:
+    """The board summary as plain data (the ``--json`` output)."""
+    netting = board.netting
+    return {
+        "name": board.name,
+        "source": board.source,
+        "format": board.format,
+        "layers": [{
+            "name": layer.name, "index": layer.index, "side": layer.side, "kind": layer.kind,
+            "kind_source": layer.kind_source, "file": layer.path, "segments": len(layer.segments),
+            "shapes": len(layer.shapes), "trace_length_mm": round(layer.trace_length_mm, 3),
+            "fill_ratio": None if layer.fill_ratio is None else round(layer.fill_ratio, 4),
+        } for layer in board.layers],
+        "nets": len(board.nets),
+        "holes": {"plated": int(board.holes.plated.sum()), "non_plated": int((~board.holes.plated).sum())},
+        "stackup": None if board.stackup is None else [{
+            "kind": s.kind, "name": s.name, "thickness_mm": s.thickness_mm, "epsilon_r": s.epsilon_r,
+            "copper_index": s.copper_index} for s in board.stackup.layers],
+        "stackup_source": None if board.stackup is None else board.stackup.source,
+        "netting": None if netting is None else {
+            "method": netting.method,
+            "netted_trace_fraction": round(netting.netted_trace_fraction, 6),
+            "netlist_points_matched": netting.netlist_points_matched,
+            "netlist_points_total": netting.netlist_points_total,
+            "copper_islands": netting.islands,
+            "synthetic_nets": netting.synthetic_nets,
+            "shorts": [_fault(f) for f in netting.shorts],
+            "opens": [_fault(f) for f in netting.opens],
+        },
+        "warnings": list(board.warnings),
+    }
+
+
+def _fault(f) -> dict:
+    return {"nets": list(f.nets), "x_mm": round(f.x_mm, 4), "y_mm": round(f.y_mm, 4), "layer": f.layer,
+            "detail": f.detail}
+
+
+def _table(header: tuple, rows: list[tuple], right: set[int]) -> list[str]:
+    widths = [max(len(str(r[i])) for r in rows + [header]) for i in range(len(header))]
+    return ["  ".join(str(c).rjust(w) if i in right else str(c).ljust(w)
+                      for i, (c, w) in enumerate(zip(r, widths))).rstrip() for r in [header] + rows]
+
+
+def render_inspect(data: dict) -> str:
+    out = [f"board {data['name']} ({data['format']}) from {data['source']}", ""]
+    rows = [(l["name"], l["side"], l["kind"], l["kind_source"], l["segments"], f"{l['trace_length_mm']:.1f}",
+             l["shapes"], "-" if l["fill_ratio"] is None else f"{100 * l['fill_ratio']:.0f}%",
+             Path(l["file"] or "").name) for l in data["layers"]]
+    out += _table(("layer", "side", "use", "decided by", "traces", "length mm", "shapes", "poured", "file"),
+                  rows, {4, 5, 6, 7})
+    holes = data["holes"]
+    out += ["", f"nets: {data['nets']}    holes: {holes['plated']} plated, {holes['non_plated']} non-plated"]
+    if data["stackup"]:
+        out += ["", f"stackup ({data['stackup_source']}):"]
+        srows = [(s["kind"], s["name"], f"{s['thickness_mm']:.4f}",
+                  "" if s["epsilon_r"] is None else f"{s['epsilon_r']:.2f}") for s in data["stackup"]]
+        out += ["  " + line for line in _table(("material", "name", "thick mm", "eps_r"), srows, {2, 3})]
+    else:
+        out += ["", "stackup: none in the files (give one in the rules file)"]
+    n = data["netting"]
+    if n:
+        out += ["", f"netting by {n['method']}: {100 * n['netted_trace_fraction']:.1f}% of trace length carries a "
+                    f"named net; netlist points matched {n['netlist_points_matched']}/{n['netlist_points_total']}; "
+                    f"{n['copper_islands']} copper islands, {n['synthetic_nets']} without a name",
+                f"shorts: {len(n['shorts'])}    opens: {len(n['opens'])}"]
+        for kind in ("shorts", "opens"):
+            for f in n[kind][:SHOWN_FAULTS]:
+                out.append(f"  {kind[:-1]}: {', '.join(f['nets'])} at ({f['x_mm']:.3f}, {f['y_mm']:.3f}) mm"
+                           f"{' on ' + f['layer'] if f['layer'] else ''}: {f['detail']}")
+            if len(n[kind]) > SHOWN_FAULTS:
+                out.append(f"  ... {len(n[kind]) - SHOWN_FAULTS} more {kind} (see --json)")
+    if data["warnings"]:
+        out += ["", "warnings:"] + [f"  {w}" for w in data["warnings"]]
+    return "\n".join(out)
+
+
+@click.command("inspect")
+@click.argument("board", type=click.Path(path_type=Path))
+@click.option("--json", "as_json", is_flag=True, help="Print the summary as JSON instead of tables.")
+@click.option("--board-file", type=click.Path(path_type=Path), default=None,
+              help="Board description (TOML): copper files in stack order, planes, netlist, drills.")
+def command(board, as_json, board_file):
+    """Show what nearfar reads from BOARD (a folder or .zip): copper layers in stack order, planes,
+    nets, stackup, how well the copper matched the netlist, and parser warnings."""
+    data = inspect_data(load_board(board, board_file=board_file))
+    click.echo(json.dumps(data, indent=2) if as_json else render_inspect(data))
+    return 0

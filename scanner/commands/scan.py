@@ -1,0 +1,74 @@
+"""``nearfar scan``: the main job."""
+from __future__ import annotations
+
+import sys
+import time
+from pathlib import Path
+
+import click
+
+from scanner import load_board, scan
+from scanner.report.files import write_tables, report_json
+from scanner.report.text import render
+from scanner.rules import load_rules
+
+
+@click.command("scan")
+@click.argument("board", type=click.Path(path_type=Path))
+@click.option("--rules", "rules_path", type=click.Path(path_type=Path), default=None,
+              help="Rules file (TOML): net classes, budgets, pairs, stackup. Defaults are used and printed without one.")
+@click.option("--board-file", type=click.Path(path_type=Path), default=None,
+              help="Board description (TOML) naming layers in stack order, planes and netlist, for files nothing can guess.")
+@click.option("--out", "out_dir", type=click.Path(path_type=Path, file_okay=False), default=None,
+              help="Folder for report.json, hotspots.csv, images and report.html.")
+@click.option("--top", type=click.IntRange(min=1), default=20, show_default=True,
+              help="Hotspots listed on the terminal.")
+@click.option("--json", "as_json", is_flag=True, help="Print report.json to standard output instead of the table.")
+@click.option("--no-images", is_flag=True, help="Skip overlay images, waveform plots and the report page.")
+def command(board, rules_path, board_file, out_dir, top, as_json, no_images):
+    """Find parallel runs between nets on BOARD (a folder or .zip of fabrication files), predict NEXT and
+    FEXT on every victim, check the net-class budgets and rank the hotspots.
+
+    Exit status: 0 all victims within budget, 1 some victim over budget, 2 bad input.
+    """
+    show_progress = not as_json and sys.stderr.isatty()
+    started = time.perf_counter()
+
+    def progress(msg: str) -> None:
+        if show_progress:
+            click.echo(f"[{time.perf_counter() - started:6.1f} s] {msg}", err=True)
+
+    rules = load_rules(rules_path)
+    progress(f"reading {board}")
+    the_board = load_board(board, board_file=board_file)
+    result = scan(the_board, rules, progress=progress)
+
+    if out_dir is not None:
+        progress(f"writing reports to {out_dir}")
+        if not no_images:
+            _write_visuals(result, the_board, out_dir)
+        write_tables(result, out_dir)
+        if not no_images:
+            _write_page(result, out_dir)
+    if as_json:
+        click.echo(report_json(result), nl=False)
+    else:
+        click.echo(render(result, top=top))
+    progress("done")
+    return result.exit_code
+
+
+def _write_visuals(result, board, out_dir):
+    try:
+        from scanner.report import images
+    except ModuleNotFoundError:
+        return
+    images.write_images(result, board, out_dir)
+
+
+def _write_page(result, out_dir):
+    try:
+        from scanner.report import page
+    except ModuleNotFoundError:
+        return
+    page.write_page(result, out_dir)

@@ -1,0 +1,45 @@
+"""Turn a board folder or archive into a :class:`scanner.board.Board`.
+
+One module per format; the registry (``registry.py``) picks the importer that claims the
+files best. Importers come from the ``nearfar.importers`` entry-point group.
+"""
+from __future__ import annotations
+
+import tempfile
+from pathlib import Path
+
+from scanner.board import Board
+from scanner.errors import InputError
+from scanner.importers.archive import extract_archive
+from scanner.importers.registry import choose, discover
+from scanner.importers.sources import list_sources
+
+__all__ = ["load_board"]
+
+
+def load_board(path, board_file=None) -> Board:
+    """Read a board folder or ``.zip`` archive; ``board_file`` overrides ``nearfar-board.toml``."""
+    path = Path(path)
+    board_file = None if board_file is None else Path(board_file)
+    if board_file is not None and not board_file.is_file():
+        raise InputError("board file not found", path=board_file)
+    if not path.exists():
+        raise InputError("board folder or archive not found", path=path)
+    if path.is_file():
+        if path.suffix.lower() != ".zip":
+            raise InputError("expected a board folder or a .zip archive", path=path)
+        with tempfile.TemporaryDirectory(prefix="nearfar-") as tmp:
+            root = Path(tmp)
+            extract_archive(path, root)
+            return _load_folder(root, board_file, where=str(path), prefix=f"{path.name}!")
+    return _load_folder(path, board_file, where=str(path), prefix=f"{path}/")
+
+
+def _load_folder(root: Path, board_file: Path | None, where: str, prefix: str) -> Board:
+    files = list_sources(root, prefix)
+    if not files:
+        raise InputError("no files found", path=where)
+    importer = choose(discover(), files, where)
+    board = importer.load(root, files, board_file=board_file)
+    board.source = where
+    return board

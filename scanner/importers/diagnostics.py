@@ -1,0 +1,66 @@
+"""Parser warnings collected per file and summarised, never printed as they arrive.
+
+gerbonara reports every dialect quirk it tolerates; a real board gives hundreds of
+thousands. Counting them by message in our own ``warn`` hook costs far less than
+letting the ``warnings`` machinery format and record each one.
+"""
+from __future__ import annotations
+
+import re
+import warnings
+from collections import Counter
+from contextlib import contextmanager
+from dataclasses import dataclass, field
+
+#: how many distinct messages a file summary quotes
+QUOTED_KINDS = 3
+
+_LOCATION = re.compile(r'^\S*?:(\d+)(?: "[^"]*")?:\s*')
+
+
+@dataclass
+class FileWarnings:
+    """Warnings about one input file: count per message and the first line each appeared on."""
+
+    name: str
+    counts: Counter = field(default_factory=Counter)
+    first_line: dict = field(default_factory=dict)
+
+    def add(self, message: str, line: int | None = None) -> None:
+        text = str(message)
+        match = _LOCATION.match(text)
+        if match:
+            line = line or int(match.group(1))
+            text = text[match.end():]
+        text = " ".join(text.split())
+        self.counts[text] += 1
+        self.first_line.setdefault(text, line)
+
+    @property
+    def total(self) -> int:
+        return sum(self.counts.values())
+
+    def summary(self) -> str | None:
+        """One line: total, number of kinds and the commonest few with their first line."""
+        if not self.counts:
+            return None
+        parts = []
+        for text, n in self.counts.most_common(QUOTED_KINDS):
+            where = f"line {self.first_line[text]}: " if self.first_line.get(text) else ""
+            parts.append(f"{where}{_clip(text)} (x{n})")
+        kinds = len(self.counts)
+        return (f"{self.name}: {self.total} parser warning{'s' if self.total != 1 else ''} "
+                f"of {kinds} kind{'s' if kinds != 1 else ''}; " + "; ".join(parts))
+
+    @contextmanager
+    def capturing(self):
+        """Route warnings raised through the ``warnings`` module during the block into this log."""
+        with warnings.catch_warnings(record=True) as caught:
+            warnings.simplefilter("always")
+            yield self
+        for w in caught:
+            self.add(str(w.message))
+
+
+def _clip(text: str, limit: int = 90) -> str:
+    return text if len(text) <= limit else text[: limit - 3] + "..."

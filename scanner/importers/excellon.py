@@ -1,0 +1,104 @@
+"""Excellon drill files to holes (mm): position, diameter and plating."""
+from __future__ import annotations
+
+import re
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+from gerbonara import graphic_objects as go
+from gerbonara.excellon import ExcellonFile
+from gerbonara.utils import MM
+
+from scanner.board import Holes, NO_NET
+from scanner.errors import InputError
+from scanner.importers.diagnostics import FileWarnings
+from scanner.importers.gerber_copper import PARSER_ERRORS, _split_location
+
+_NON_PLATED_NAME = re.compile(r"npth|non[-_ ]?plated|unplated|nplt|np[-_.]", re.I)
+_PLATED_NAME = re.compile(r"pth|plated|plt", re.I)
+_X2_PLATING = re.compile(r"TF\.FileFunction,(NonPlated|Plated)", re.I)
+
+
+@dataclass
+class DrillFile:
+    """Holes from one drill file and where its plating came from."""
+
+    path: Path
+    holes: Holes
+    plating_source: str  # "file" (attributes or comments), "board-file", "job-file", "file-name", "assumed"
+    slot_count: int
+    log: FileWarnings
+
+
+def plating_from_name(name: str) -> bool | None:
+    if _NON_PLATED_NAME.search(name):
+        return False
+    if _PLATED_NAME.search(name):
+        return True
+    return None
+
+
+def read_drills(path: Path, display_name: str | None = None, plated: bool | None = None,
+                plated_source: str | None = None) -> DrillFile:
+    """Read an Excellon file; ``plated`` (with its source) overrides what the file itself says.
+
+    Routed slots are kept as a row of holes of the tool diameter spaced at half a diameter, so
+    plated slots still join the layers they pass through.
+    """
+    name = display_name or str(path)
+    log = FileWarnings(name)
+    try:
+        text = path.read_bytes().decode("utf-8", errors="replace")
+    except OSError as exc:
+        raise InputError(f"cannot read drill file: {exc.strerror or exc}", path=name) from exc
+    try:
+        with log.capturing():
+            drills = ExcellonFile.from_string(text, filename=Path(name).name)
+    except PARSER_ERRORS as exc:
+        line, message = _split_location(str(exc), None)
+        raise InputError(f"unreadable Excellon drill file: {message}", path=name, line=line) from exc
+
+    source = plated_source
+    per_tool = False
+    if plated is None:
+        x2 = _X2_PLATING.search(text[:4096])
+        tools = {obj.aperture.plated for obj in drills.objects}
+        if x2:
+            plated, source = x2.group(1).lower() == "plated", "file"
+        elif tools and None not in tools:
+            per_tool, source = True, "file"
+        elif (guess := plating_from_name(path.name)) is not None:
+            plated, source = guess, "file-name"
+        else:
+            plated, source = True, "assumed"
+            log.add("plating not stated in the file or its name; holes taken as plated")
+
+    xs, ys, ds, mixed = [], [], [], []
+    slots = 0
+    for obj in drills.objects:
+        unit = obj.unit or drills.import_settings.unit
+        to_mm = unit.convert_to(MM, 1.0) if unit is not None else 1.0
+        dia = obj.aperture.unit.convert_to(MM, obj.aperture.diameter) if obj.aperture.unit else obj.aperture.diameter * to_mm
+        if isinstance(obj, go.Flash):
+            xs.append(obj.x * to_mm)
+            ys.append(obj.y * to_mm)
+            ds.append(dia)
+            mixed.append(obj.aperture.plated)
+        else:
+            slots += 1
+            pieces = obj.approximate(max_error=dia / 20, unit=MM) if isinstance(obj, go.Arc) else [obj]
+            for line in pieces:
+                x0, y0, x1, y1 = (v * to_mm for v in (line.x1, line.y1, line.x2, line.y2))
+                n = int(np.ceil(np.hypot(x1 - x0, y1 - y0) / max(dia / 2, 1e-3))) + 1
+                t = np.linspace(0.0, 1.0, n)
+                xs.extend(x0 + (x1 - x0) * t)
+                ys.extend(y0 + (y1 - y0) * t)
+                ds.extend([dia] * n)
+                mixed.extend([obj.aperture.plated] * n)
+    if slots:
+        log.add(f"{slots} routed slot(s) kept as rows of holes")
+    plating = np.array(mixed if per_tool else [plated] * len(mixed), dtype=bool)
+    holes = Holes(np.asarray(xs), np.asarray(ys), np.asarray(ds), plating,
+                  np.full(len(xs), NO_NET, dtype=np.int32))
+    return DrillFile(path=path, holes=holes, plating_source=source, slot_count=slots, log=log)

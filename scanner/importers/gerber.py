@@ -1,0 +1,155 @@
+"""The Gerber importer: copper Gerber (X2, or X1 with an IPC-D-356 netlist), Excellon drills, job file."""
+from __future__ import annotations
+
+from pathlib import Path
+
+import numpy as np
+
+from scanner.board import NO_NET, Board, CopperLayer, CopperShapes, Holes, NetlistPoints, TraceSegments
+from scanner.errors import InputError
+from scanner.importers.boardfile import BOARD_FILE_NAME, BoardFile, read_board_file
+from scanner.importers.excellon import read_drills
+from scanner.importers.gerber_copper import CopperArtwork, read_copper
+from scanner.importers.ipc356 import NetlistRecords, read_ipc356
+from scanner.importers.jobfile import JobFile, read_job_file
+from scanner.importers.layer_order import CopperFile, copper_files
+from scanner.importers.outline import find_profile, read_outline
+from scanner.importers.planes import classify_planes
+from scanner.importers.sources import SourceFile
+from scanner.netmap import assign_nets
+
+
+class GerberImporter:
+    """Claims folders with Gerber files; X2 attributes, when present, score higher."""
+
+    name = "gerber"
+
+    def claims(self, files: list[SourceFile]) -> float:
+        gerbers = [f for f in files if f.kind == "gerber"]
+        if not gerbers:
+            return 0.0
+        return 2.0 if any(f.is_copper_x2 for f in gerbers) else 1.0
+
+    def load(self, root: Path, files: list[SourceFile], board_file: Path | None = None) -> Board:
+        where = str(root)
+        by_rel = {f.rel: f for f in files}
+        board_cfg = _board_file(files, board_file)
+        job = _job_file(files)
+        gerbers = [f for f in files if f.kind == "gerber"]
+        copper, order_source = copper_files(gerbers, board_cfg.layers if board_cfg else None,
+                                            board_cfg.path if board_cfg else None,
+                                            job.file_functions if job else None, where)
+        if not copper:
+            raise InputError("no copper layers found (no X2 .FileFunction, job file or recognisable file names; "
+                             f"list them in {BOARD_FILE_NAME})", path=where)
+        artworks = [read_copper(c.source.path, c.source.name) for c in copper]
+        warnings = []
+        net_names = sorted({n for a in artworks for n in np.concatenate([a.segment_net, a.shape_net]) if n})
+        net_index = {n: i for i, n in enumerate(net_names)}
+        layers = [_layer(k, c, a, net_index) for k, (c, a) in enumerate(zip(copper, artworks))]
+        profile = find_profile([g for g in gerbers if g not in {c.source for c in copper}],
+                               job.file_functions if job else None)
+        outline, outline_log = read_outline(profile) if profile is not None else (None, None)
+        board_planes = _board_planes(board_cfg, copper, layers)
+        classify_planes(layers, [(c.kind_hint, c.hint_source) for c in copper], board_planes, outline)
+
+        holes, drill_logs = _holes(files, by_rel, board_cfg, job)
+        netlist = _netlist(files, by_rel, board_cfg, len(layers))
+        for a in artworks:
+            if (s := a.log.summary()):
+                warnings.append(s)
+        warnings.extend(s for log in drill_logs + ([outline_log] if outline_log else []) if (s := log.summary()))
+
+        x2 = any(a.has_net_attributes for a in artworks) or order_source == "gerber-x2"
+        fmt = "gerber-x2" if x2 else "gerber-x1"
+        if netlist is not None:
+            fmt += "+ipc-d-356"
+        board = Board(
+            name=Path(where).name, source=where, format=fmt, layers=layers, nets=net_names, holes=holes,
+            stackup=job.stackup if job else None, outline=outline,
+            netlist=_netlist_points(netlist, len(layers)) if netlist is not None else None,
+            warnings=warnings)
+        if order_source == "file-names":
+            board.warnings.append("copper order taken from file names: "
+                                  + ", ".join(c.source.rel for c in copper)
+                                  + f" (override with {BOARD_FILE_NAME})")
+        assign_nets(board)
+        return board
+
+
+def _board_file(files: list[SourceFile], explicit: Path | None) -> BoardFile | None:
+    if explicit is not None:
+        return read_board_file(explicit)
+    found = [f for f in files if f.kind == "board-file" and f.rel == BOARD_FILE_NAME]
+    return read_board_file(found[0].path, found[0].name) if found else None
+
+
+def _job_file(files: list[SourceFile]) -> JobFile | None:
+    jobs = [f for f in files if f.kind == "job"]
+    return read_job_file(jobs[0].path, jobs[0].name) if jobs else None
+
+
+def _layer(index: int, copper: CopperFile, art: CopperArtwork, net_index: dict) -> CopperLayer:
+    def ids(names):
+        return np.array([net_index[n] if n else NO_NET for n in names], dtype=np.int32)
+
+    segments = TraceSegments(art.x0, art.y0, art.x1, art.y1, art.width, ids(art.segment_net))
+    shapes = CopperShapes(art.geometry, ids(art.shape_net), art.role) if len(art.geometry) else CopperShapes.empty()
+    return CopperLayer(name=f"L{index + 1:02d}", index=index, side=copper.side, kind="signal", kind_source="",
+                       path=copper.source.name, segments=segments, shapes=shapes)
+
+
+def _board_planes(cfg: BoardFile | None, copper: list[CopperFile], layers: list[CopperLayer]) -> set[int] | None:
+    if cfg is None or not cfg.planes:
+        return None
+    lookup = {}
+    for c, layer in zip(copper, layers):
+        for key in (c.source.rel, c.source.path.name, layer.name):
+            lookup[key] = layer.index
+    missing = [p for p in cfg.planes if p not in lookup]
+    if missing:
+        raise InputError(f"'planes' names unknown copper layer(s): {', '.join(missing)}", path=cfg.path)
+    return {lookup[p] for p in cfg.planes}
+
+
+def _find(by_rel: dict, name: str, cfg: BoardFile) -> SourceFile:
+    src = by_rel.get(name) or next((f for f in by_rel.values() if f.path.name == name), None)
+    if src is None:
+        raise InputError(f"file {name!r} named in the board file not found", path=cfg.path)
+    return src
+
+
+def _holes(files, by_rel, cfg: BoardFile | None, job: JobFile | None):
+    if cfg is not None and cfg.drills is not None:
+        chosen = [(_find(by_rel, d.file, cfg), d.plated, "board-file" if d.plated is not None else None)
+                  for d in cfg.drills]
+    else:
+        chosen = [(f, None, None) for f in files if f.kind == "excellon"]
+    parts, logs = [], []
+    for src, plated, source in chosen:
+        if plated is None and job is not None and (fn := job.file_functions.get(src.path.name)):
+            if fn[0] in ("Plated", "NonPlated"):
+                plated, source = fn[0] == "Plated", "job-file"
+        drill = read_drills(src.path, src.name, plated, source)
+        parts.append(drill.holes)
+        logs.append(drill.log)
+    if not parts:
+        return Holes.empty(), logs
+    return Holes(*(np.concatenate([getattr(h, k) for h in parts]) for k in ("x", "y", "diameter", "plated", "net"))), logs
+
+
+def _netlist(files, by_rel, cfg: BoardFile | None, n_layers: int) -> NetlistRecords | None:
+    if cfg is not None and cfg.netlist:
+        src = _find(by_rel, cfg.netlist, cfg)
+        return read_ipc356(src.path, src.name)
+    found = [f for f in files if f.kind == "ipc356"]
+    if len(found) > 1:
+        raise InputError(f"several IPC-D-356 netlists ({', '.join(f.rel for f in found)}); name one as "
+                         f"'netlist' in {BOARD_FILE_NAME}", path=str(found[0].path.parent))
+    return read_ipc356(found[0].path, found[0].name) if found else None
+
+
+def _netlist_points(rec: NetlistRecords, n_layers: int) -> NetlistPoints:
+    """Access codes to layer indices: 0 through (-1), n copper layer n; numbers past the stack mean the bottom."""
+    layer = np.where(rec.access <= 0, -1, np.minimum(rec.access, n_layers) - 1).astype(np.int32)
+    return NetlistPoints(rec.net_name, rec.x, rec.y, layer, rec.hole_mm, rec.record, rec.line)

@@ -1,0 +1,355 @@
+"""One copper Gerber file (X1 or X2) mapped to trace segments and copper shapes in millimetres."""
+from __future__ import annotations
+
+import re
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+import shapely
+from gerbonara import graphic_objects as go
+from gerbonara.apertures import CircleAperture
+from gerbonara.rs274x import GerberFile, GerberParser
+from gerbonara.utils import MM
+
+from scanner.errors import InputError
+from scanner.importers.apertures import QUAD_SEGS, aperture_outline, arc_poly_polygon, swept_width_mm
+from scanner.importers.arcs import flatten_arcs
+from scanner.importers.diagnostics import FileWarnings
+
+#: draws shorter than this (mm) are flashes in disguise and become pads
+ZERO_LENGTH_MM = 1e-6
+
+#: exceptions gerbonara raises on malformed input
+PARSER_ERRORS = (SyntaxError, ValueError, KeyError, IndexError, TypeError, AttributeError,
+                 AssertionError, ZeroDivisionError, ArithmeticError)
+
+_GERBONARA_WHERE = re.compile(r'^(?:.*?):(\d+)\s+(?:"[^"]*":\s*)?(.*)$', re.S)
+
+
+@dataclass
+class CopperArtwork:
+    """Copper from one file. Net names are still strings (None where the file gives none)."""
+
+    path: Path
+    file_attributes: dict
+    x0: np.ndarray
+    y0: np.ndarray
+    x1: np.ndarray
+    y1: np.ndarray
+    width: np.ndarray
+    segment_net: np.ndarray  # object array: str or None
+    geometry: np.ndarray  # object array of shapely geometries
+    shape_net: np.ndarray
+    role: np.ndarray
+    log: FileWarnings
+
+    @property
+    def has_net_attributes(self) -> bool:
+        return any(n is not None for n in self.segment_net) or any(n is not None for n in self.shape_net)
+
+
+class _ObjectList(list):
+    """gerbonara drops object attributes on regions; stamp the ones in force when each region closes."""
+
+    def __init__(self, parser: "_CopperParser"):
+        super().__init__()
+        self._parser = parser
+
+    def append(self, obj):
+        if isinstance(obj, go.Region):
+            obj.attrs = {**self._parser.aperture_attrs, **self._parser.graphics_state.object_attrs}
+        super().append(obj)
+
+
+class _CopperParser(GerberParser):
+    def __init__(self, target, log: FileWarnings):
+        super().__init__(target)
+        self._log = log
+        target.objects = _ObjectList(self)
+
+    def warn(self, msg, kls=SyntaxWarning):
+        self._log.add(msg, self.lineno or None)
+
+
+def parse_gerber(path: Path, display_name: str | None = None) -> tuple[GerberFile, FileWarnings]:
+    """Parse with gerbonara; warnings counted in a log, failures raised as InputError with file and line."""
+    name = display_name or str(path)
+    log = FileWarnings(name)
+    try:
+        data = path.read_bytes().decode("utf-8", errors="replace")
+    except OSError as exc:
+        raise InputError(f"cannot read Gerber file: {exc.strerror or exc}", path=name) from exc
+    gerber = GerberFile()
+    parser = _CopperParser(gerber, log)
+    try:
+        with log.capturing():
+            parser.parse(data, filename=Path(name).name)
+    except PARSER_ERRORS as exc:
+        line, message = _split_location(str(exc), parser.lineno)
+        raise InputError(f"unreadable Gerber: {message}", path=name, line=line) from exc
+    except RecursionError as exc:
+        raise InputError("unreadable Gerber: nesting too deep", path=name) from exc
+    if not parser.eof_found:
+        raise InputError("Gerber file ends without its M02 end marker; it looks truncated", path=name,
+                         line=data.count("\n") + 1)
+    if gerber.unit is None:
+        raise InputError("Gerber file declares no unit (no %MO statement)", path=name)
+    return gerber, log
+
+
+def _split_location(text: str, fallback_line: int | None) -> tuple[int | None, str]:
+    match = _GERBONARA_WHERE.match(text)
+    if match:
+        return int(match.group(1)), " ".join(match.group(2).split())
+    return (fallback_line or None), " ".join(text.split())
+
+
+def aperture_function(attrs) -> str | None:
+    for key, value in (attrs or ()):
+        if key == ".AperFunction" and value:
+            return value[0]
+    return None
+
+
+def role_for(function: str | None, default: str) -> str:
+    """Shape role from an X2 ``.AperFunction`` value."""
+    if not function:
+        return default
+    if function.startswith("NonConductor") or function == "Profile":
+        return "other"
+    if function == "ViaPad":
+        return "via"
+    if function.endswith("Pad") or function in ("FiducialPad", "Fiducial", "TestPad"):
+        return "pad"
+    return default
+
+
+def net_of(obj) -> str | None:
+    attrs = obj.attrs if isinstance(obj.attrs, dict) else {}
+    value = attrs.get(".N")
+    if not value or not value[0]:
+        return None
+    return value[0]
+
+
+class _Outlines:
+    """Aperture outlines (mm, at the origin), built once per aperture."""
+
+    def __init__(self):
+        self._cache: dict[int, shapely.Geometry] = {}
+        self._keep = []
+
+    def __call__(self, aperture) -> shapely.Geometry:
+        key = id(aperture)
+        if key not in self._cache:
+            self._cache[key] = aperture_outline(aperture)
+            self._keep.append(aperture)
+        return self._cache[key]
+
+
+def _translated(template: shapely.Geometry, x: np.ndarray, y: np.ndarray) -> np.ndarray:
+    """Copies of ``template`` moved to each (x, y), in one vectorised call."""
+    copies = np.empty(len(x), dtype=object)
+    copies[:] = [template] * len(x)
+    n_coords = len(shapely.get_coordinates(template))
+    offsets = np.repeat(np.column_stack([x, y]), n_coords, axis=0)
+    return shapely.transform(copies, lambda coords: coords + offsets)
+
+
+def read_copper(path: Path, display_name: str | None = None) -> CopperArtwork:
+    """Read one copper file into segments and shapes with net names (X2) where present."""
+    gerber, log = parse_gerber(path, display_name)
+    return artwork_from_gerber(path, gerber, log)
+
+
+def artwork_from_gerber(path: Path, gerber: GerberFile, log: FileWarnings) -> CopperArtwork:
+    scale = gerber.unit.convert_to(MM, 1.0)
+    outlines = _Outlines()
+    objects = list(gerber.objects)
+    draws, flashes, regions = [], [], []
+    for order, obj in enumerate(objects):
+        kind = type(obj)
+        if kind is go.Line or kind is go.Arc:
+            draws.append(order)
+        elif kind is go.Flash:
+            flashes.append(order)
+        elif kind is go.Region:
+            regions.append(order)
+    builder = _ShapeBuilder(log)
+
+    seg = _draws_to_segments([objects[i] for i in draws], np.asarray(draws, dtype=np.int64), scale, log, outlines)
+    # zero-length draws and non-conductor draws become shapes; clear draws become cut-outs
+    for g, net, role, order, dark in seg.pop("as_shapes"):
+        builder.add(g, net, role, order, dark)
+    _flashes_to_shapes([objects[i] for i in flashes], np.asarray(flashes, dtype=np.int64), scale, outlines, builder, log)
+    for i in regions:
+        obj = objects[i]
+        poly = arc_poly_polygon(np.asarray(obj.outline, dtype=np.float64) * scale,
+                                [None if not a or a[0] is None else (a[0], (a[1][0] * scale, a[1][1] * scale))
+                                 for a in obj.arc_centers])
+        if poly.is_empty:
+            log.add("region with no area ignored", None)
+            continue
+        attrs = obj.attrs if isinstance(obj.attrs, dict) else {}
+        function = attrs.get(".AperFunction", (None,))[0]
+        builder.add(poly, net_of(obj), role_for(function, "region"), i, obj.polarity_dark)
+
+    geometry, shape_net, role = builder.finish(seg, log)
+    keep = seg["dark"]
+    return CopperArtwork(
+        path=path, file_attributes=dict(gerber.file_attrs),
+        x0=seg["x0"][keep], y0=seg["y0"][keep], x1=seg["x1"][keep], y1=seg["y1"][keep],
+        width=seg["width"][keep], segment_net=seg["net"][keep],
+        geometry=geometry, shape_net=shape_net, role=role, log=log)
+
+
+def _draws_to_segments(draws, order, scale, log, outlines) -> dict:
+    """Lines and flattened arcs as segment arrays; arcs keep the order of the draw they came from."""
+    lines = [o for o in draws if type(o) is go.Line]
+    line_order = order[[type(o) is go.Line for o in draws]] if len(draws) else order
+    coords = np.array([(o.x1, o.y1, o.x2, o.y2) for o in lines], dtype=np.float64).reshape(-1, 4) * scale
+    apert = [o.aperture for o in lines]
+    nets = [net_of(o) for o in lines]
+    dark = [o.polarity_dark for o in lines]
+    ords = list(line_order)
+    arcs = [o for o in draws if type(o) is go.Arc]
+    if arcs:
+        arc_order = order[[type(o) is go.Arc for o in draws]]
+        a = np.array([(o.x1, o.y1, o.x2, o.y2, o.x1 + o.cx, o.y1 + o.cy, o.clockwise) for o in arcs],
+                     dtype=np.float64) * np.array([scale] * 6 + [1.0])
+        counts, px, py = flatten_arcs(a[:, 0], a[:, 1], a[:, 2], a[:, 3], a[:, 4], a[:, 5], a[:, 6] > 0.5)
+        last = np.cumsum(counts) - 1
+        starts = np.setdiff1d(np.arange(len(px)), last)
+        owner = np.repeat(np.arange(len(arcs)), counts - 1)
+        coords = np.vstack([coords, np.column_stack([px[starts], py[starts], px[starts + 1], py[starts + 1]])])
+        apert += [arcs[k].aperture for k in owner]
+        nets += [net_of(arcs[k]) for k in owner]
+        dark += [arcs[k].polarity_dark for k in owner]
+        ords += list(arc_order[owner])
+    n = len(coords)
+    x0, y0, x1, y1 = coords.T if n else (np.zeros(0),) * 4
+    width = np.zeros(n)
+    conductor = np.ones(n, dtype=bool)
+    by_aperture: dict[int, list[int]] = {}
+    for i, ap in enumerate(apert):
+        by_aperture.setdefault(id(ap), []).append(i)
+    for idx in by_aperture.values():
+        idx = np.asarray(idx)
+        ap = apert[idx[0]]
+        if ap is None:
+            continue
+        if role_for(aperture_function(ap.attrs), "conductor") == "other":
+            conductor[idx] = False
+        if isinstance(ap, CircleAperture):
+            width[idx] = ap.unit.convert_to(MM, ap.diameter)
+        else:
+            width[idx] = swept_width_mm(outlines(ap), x1[idx] - x0[idx], y1[idx] - y0[idx])
+            log.add(f"line drawn with non-circular aperture D{ap.original_number}: "
+                    "width taken as the aperture's extent across the draw")
+    nets_arr = np.empty(n, dtype=object)
+    nets_arr[:] = nets
+    dark = np.asarray(dark, dtype=bool)
+    ords = np.asarray(ords, dtype=np.int64)
+    zero = np.hypot(x1 - x0, y1 - y0) < ZERO_LENGTH_MM
+    as_shapes = []
+    special = np.flatnonzero(zero | ~conductor | ~dark)
+    for i in special:
+        ap = apert[i]
+        if zero[i] and ap is not None:
+            geom = shapely.transform(outlines(ap), lambda c, dx=x0[i], dy=y0[i]: c + (dx, dy))
+            role = role_for(aperture_function(ap.attrs), "pad") if conductor[i] else "other"
+        else:
+            geom = shapely.LineString([(x0[i], y0[i]), (x1[i], y1[i])]).buffer(width[i] / 2, quad_segs=QUAD_SEGS)
+            role = "other"
+        as_shapes.append((geom, nets_arr[i], role, ords[i], dark[i]))
+    keep_dark = dark & conductor & ~zero
+    return {"x0": x0, "y0": y0, "x1": x1, "y1": y1, "width": width, "net": nets_arr,
+            "order": ords, "dark": keep_dark, "as_shapes": as_shapes}
+
+
+def _flashes_to_shapes(flashes, order, scale, outlines, builder, log):
+    groups: dict[int, list[int]] = {}
+    for i, f in enumerate(flashes):
+        groups.setdefault(id(f.aperture), []).append(i)
+    for idx in groups.values():
+        ap = flashes[idx[0]].aperture
+        template = outlines(ap)
+        if template.is_empty:
+            log.add(f"flash of aperture D{ap.original_number} with no area ignored")
+            continue
+        xy = np.array([(flashes[i].x, flashes[i].y) for i in idx], dtype=np.float64) * scale
+        geoms = _translated(template, xy[:, 0], xy[:, 1])
+        role = role_for(aperture_function(ap.attrs), "pad")
+        for k, i in enumerate(idx):
+            f = flashes[i]
+            builder.add(geoms[k], net_of(f), role, int(order[i]), f.polarity_dark)
+
+
+class _ShapeBuilder:
+    """Collects shapes in drawing order and cuts clear-polarity objects out of earlier dark copper."""
+
+    def __init__(self, log: FileWarnings):
+        self.log = log
+        self.geoms, self.nets, self.roles, self.orders = [], [], [], []
+        self.clear_geoms, self.clear_orders = [], []
+
+    def add(self, geom, net, role, order, dark):
+        if dark:
+            self.geoms.append(geom)
+            self.nets.append(net)
+            self.roles.append(role)
+            self.orders.append(order)
+        else:
+            self.clear_geoms.append(geom)
+            self.clear_orders.append(order)
+
+    def finish(self, seg: dict, log: FileWarnings):
+        geometry = np.empty(len(self.geoms), dtype=object)
+        geometry[:] = self.geoms
+        nets = np.empty(len(self.nets), dtype=object)
+        nets[:] = self.nets
+        roles = np.empty(len(self.roles), dtype=object)
+        roles[:] = self.roles
+        if self.clear_geoms:
+            clear = np.empty(len(self.clear_geoms), dtype=object)
+            clear[:] = self.clear_geoms
+            clear_order = np.asarray(self.clear_orders)
+            geometry = _cut_clear(geometry, np.asarray(self.orders), clear, clear_order)
+            _warn_cleared_traces(seg, clear, clear_order, log)
+        keep = ~shapely.is_empty(geometry) if len(geometry) else np.zeros(0, dtype=bool)
+        return geometry[keep], nets[keep], roles[keep]
+
+
+def _cut_clear(geometry, orders, clear, clear_order):
+    """Subtract each clear object from the dark shapes drawn before it."""
+    if not len(geometry):
+        return geometry
+    tree = shapely.STRtree(geometry)
+    clear_idx, dark_idx = tree.query(clear, predicate="intersects")
+    earlier = orders[dark_idx] < clear_order[clear_idx]
+    clear_idx, dark_idx = clear_idx[earlier], dark_idx[earlier]
+    if not len(dark_idx):
+        return geometry
+    out = geometry.copy()
+    sort = np.argsort(dark_idx, kind="stable")
+    dark_idx, clear_idx = dark_idx[sort], clear_idx[sort]
+    bounds = np.flatnonzero(np.diff(dark_idx)) + 1
+    for d, cuts in zip(np.split(dark_idx, bounds), np.split(clear_idx, bounds)):
+        out[d[0]] = shapely.difference(out[d[0]], shapely.union_all(clear[cuts]))
+    return out
+
+
+def _warn_cleared_traces(seg, clear, clear_order, log):
+    dark = seg["dark"]
+    if not dark.any():
+        return
+    lines = shapely.buffer(shapely.linestrings(
+        np.stack([np.column_stack([seg["x0"][dark], seg["y0"][dark]]),
+                  np.column_stack([seg["x1"][dark], seg["y1"][dark]])], axis=1)), seg["width"][dark] / 2, quad_segs=2)
+    tree = shapely.STRtree(lines)
+    clear_idx, line_idx = tree.query(clear, predicate="intersects")
+    hit = np.unique(line_idx[seg["order"][dark][line_idx] < clear_order[clear_idx]])
+    if len(hit):
+        log.add(f"{len(hit)} trace segment(s) drawn dark and later partly cleared by clear-polarity objects; "
+                "kept whole as traces")

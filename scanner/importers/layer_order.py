@@ -1,0 +1,116 @@
+"""Which Gerber files are copper, in what stack order, and which are planes.
+
+Sources, strongest first: the board file's ``layers``, X2 ``.FileFunction`` in the files,
+the job file's ``FilesAttributes``, and last the file names.
+"""
+from __future__ import annotations
+
+import re
+from dataclasses import dataclass
+
+from scanner.errors import InputError
+from scanner.importers.sources import SourceFile
+
+_NOT_COPPER = re.compile(
+    r"mask|silk|paste|legend|overlay|outline|profile|edge|keep.?out|courtyard|fab|assy|assembly|drill|"
+    r"mech|dimension|stencil|contour|rout|comment|drawing|notes")
+_NOT_COPPER_EXT = {".gts", ".gbs", ".gto", ".gbo", ".gtp", ".gbp", ".gko", ".gm1", ".gml", ".gtm", ".gbm"}
+_TOP = re.compile(r"(?:^|[^a-z])(?:top|front|f[._]cu|primary|comp(?:onent)?side)(?:[^a-z]|$)")
+_BOTTOM = re.compile(r"(?:^|[^a-z])(?:bot|bottom|back|b[._]cu|secondary|solderside)(?:[^a-z]|$)")
+_NUMBERED = re.compile(r"(?:^|[^a-z])(?:l|layer|lyr|inner|in|int|art|copper|cu|sig|signal|plane|gnd|pwr)"
+                       r"[-_ .]?0*(\d{1,2})(?:[^0-9]|$)")
+_EXT_SIDE = {".gtl": "top", ".cmp": "top", ".gbl": "bottom", ".sol": "bottom"}
+_EXT_INNER = re.compile(r"^\.g(p?)(\d{1,2})$")
+
+
+@dataclass(frozen=True)
+class CopperFile:
+    source: SourceFile
+    side: str  # "top" | "inner" | "bottom"
+    kind_hint: str | None  # "plane" | "signal" | None
+    hint_source: str | None  # where kind_hint came from
+
+
+def _side(position: int, count: int) -> str:
+    return "top" if position == 0 else ("bottom" if position == count - 1 else "inner")
+
+
+def _x2_hint(function: tuple[str, ...] | None) -> str | None:
+    if function and len(function) > 3:
+        return {"Plane": "plane", "Signal": "signal", "Mixed": "signal"}.get(function[3])
+    return None
+
+
+def _layer_number(function: tuple[str, ...], name: str, origin: str) -> int:
+    if len(function) < 2 or not re.fullmatch(r"L\d+", function[1]):
+        raise InputError(f"copper .FileFunction {','.join(function)!r} has no L<n> layer number", path=name)
+    return int(function[1][1:])
+
+
+def guess_from_name(file_name: str) -> tuple[int, int] | None:
+    """Sort key for a copper file from its name: (0, 0) top, (1, n) inner n, (2, 0) bottom; None if not copper."""
+    low = file_name.lower()
+    dot = low.rfind(".")
+    stem, ext = (low[:dot], low[dot:]) if dot > 0 else (low, "")
+    if ext in _NOT_COPPER_EXT or _NOT_COPPER.search(stem):
+        return None
+    if ext in _EXT_SIDE:
+        return (0, 0) if _EXT_SIDE[ext] == "top" else (2, 0)
+    if (m := _EXT_INNER.match(ext)):
+        return (1, int(m.group(2)))
+    if _TOP.search(stem):
+        return (0, 0)
+    if _BOTTOM.search(stem):
+        return (2, 0)
+    if (m := re.search(r"(?:^|[^a-z])in(\d{1,2})[._]cu", stem)) or (m := _NUMBERED.search(stem)):
+        return (1, int(m.group(1)))
+    return None
+
+
+def copper_files(gerbers: list[SourceFile], board_layers: list[str] | None, board_file_name: str | None,
+                 job_functions: dict[str, tuple[str, ...]] | None, where: str) -> tuple[list[CopperFile], str]:
+    """Copper files top to bottom, and which evidence gave the order."""
+    by_name = {}
+    for src in gerbers:
+        by_name.setdefault(src.path.name, src)
+        by_name.setdefault(src.name, src)
+    job_functions = job_functions or {}
+
+    if board_layers:
+        missing = [n for n in board_layers if n not in by_name]
+        if missing:
+            raise InputError(f"'layers' names file(s) not found as Gerber in {where}: {', '.join(missing)}",
+                             path=board_file_name)
+        chosen = [by_name[n] for n in board_layers]
+        return [CopperFile(s, _side(i, len(chosen)), _x2_hint(s.file_function) or _x2_hint(job_functions.get(s.path.name)),
+                           "gerber-x2" if _x2_hint(s.file_function) else ("job-file" if _x2_hint(job_functions.get(s.path.name)) else None))
+                for i, s in enumerate(chosen)], "board-file"
+
+    x2 = [s for s in gerbers if s.is_copper_x2]
+    if x2:
+        keyed = sorted(((_layer_number(s.file_function, s.name, "x2"), s) for s in x2), key=lambda t: t[0])
+        _no_duplicates([(k, s.name) for k, s in keyed], "X2 .FileFunction", where)
+        return [CopperFile(s, _side(i, len(keyed)), _x2_hint(s.file_function), "gerber-x2" if _x2_hint(s.file_function) else None)
+                for i, (_, s) in enumerate(keyed)], "gerber-x2"
+
+    job = [(job_functions[s.path.name], s) for s in gerbers
+           if job_functions.get(s.path.name, ("",))[0] == "Copper"]
+    if job:
+        keyed = sorted(((_layer_number(f, s.name, "job"), f, s) for f, s in job), key=lambda t: t[0])
+        _no_duplicates([(k, s.name) for k, _, s in keyed], "job file FilesAttributes", where)
+        return [CopperFile(s, _side(i, len(keyed)), _x2_hint(f), "job-file" if _x2_hint(f) else None)
+                for i, (_, f, s) in enumerate(keyed)], "job-file"
+
+    guessed = [(key, s) for s in gerbers if (key := guess_from_name(s.path.name)) is not None]
+    guessed.sort(key=lambda t: (t[0], t[1].name))
+    _no_duplicates([(k, s.name) for k, s in guessed], "file names", where)
+    return [CopperFile(s, _side(i, len(guessed)), None, None) for i, (_, s) in enumerate(guessed)], "file-names"
+
+
+def _no_duplicates(keyed: list[tuple], evidence: str, where: str) -> None:
+    seen = {}
+    for key, name in keyed:
+        if key in seen:
+            raise InputError(f"{seen[key]} and {name} claim the same copper layer by {evidence}; "
+                             "list the copper order in nearfar-board.toml", path=where)
+        seen[key] = name

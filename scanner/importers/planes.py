@@ -1,0 +1,61 @@
+"""Which copper layers are reference planes, and on what evidence."""
+from __future__ import annotations
+
+import numpy as np
+import shapely
+
+from scanner.board import CopperLayer
+
+#: a layer whose pours cover more than this share of the board may be a plane ...
+PLANE_FILL_RATIO = 0.4
+#: ... when it also carries less than this share of the busiest layer's trace length
+PLANE_TRACE_SHARE = 0.25
+
+
+def board_area_mm2(layers: list[CopperLayer], outline=None) -> float:
+    """Area of the outline when known, else of the box around all copper."""
+    if outline is not None and not outline.is_empty:
+        return float(outline.area)
+    boxes = []
+    for layer in layers:
+        s = layer.segments
+        if len(s):
+            boxes.append((min(s.x0.min(), s.x1.min()), min(s.y0.min(), s.y1.min()),
+                          max(s.x0.max(), s.x1.max()), max(s.y0.max(), s.y1.max())))
+        if len(layer.shapes):
+            b = shapely.total_bounds(layer.shapes.geometry)
+            if np.isfinite(b).all():
+                boxes.append(tuple(b))
+    if not boxes:
+        return 0.0
+    b = np.array(boxes)
+    return float((b[:, 2].max() - b[:, 0].min()) * (b[:, 3].max() - b[:, 1].min()))
+
+
+def fill_ratio(layer: CopperLayer, area_mm2: float) -> float:
+    """Share of the board covered by the layer's pours (regions)."""
+    regions = layer.shapes.geometry[layer.shapes.role == "region"] if len(layer.shapes) else []
+    if area_mm2 <= 0 or not len(regions):
+        return 0.0
+    return float(shapely.union_all(regions).area / area_mm2)
+
+
+def classify_planes(layers: list[CopperLayer], hints: list[tuple[str | None, str | None]],
+                    board_planes: set[int] | None, outline=None) -> None:
+    """Set ``kind``, ``kind_source`` and ``fill_ratio`` on each layer.
+
+    ``board_planes`` (layer indices from the board file) is taken as the complete list when given;
+    otherwise X2 or job-file hints decide, and the fill ratio decides the rest.
+    """
+    area = board_area_mm2(layers, outline)
+    busiest = max((layer.trace_length_mm for layer in layers), default=0.0)
+    for layer, (hint, source) in zip(layers, hints):
+        layer.fill_ratio = fill_ratio(layer, area)
+        if board_planes is not None:
+            layer.kind, layer.kind_source = ("plane" if layer.index in board_planes else "signal"), "board-file"
+        elif hint is not None:
+            layer.kind, layer.kind_source = hint, source
+        else:
+            few_traces = busiest <= 0 or layer.trace_length_mm < PLANE_TRACE_SHARE * busiest
+            is_plane = layer.fill_ratio > PLANE_FILL_RATIO and few_traces
+            layer.kind, layer.kind_source = ("plane" if is_plane else "signal"), "fill-ratio"

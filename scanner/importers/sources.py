@@ -1,0 +1,65 @@
+"""The files of a board folder, each sniffed for its format (by content first, then by name)."""
+from __future__ import annotations
+
+import re
+from dataclasses import dataclass
+from pathlib import Path
+
+from scanner.importers.boardfile import BOARD_FILE_NAME
+
+#: bytes read from each file to recognise its format
+SNIFF_BYTES = 65536
+
+_FILE_FUNCTION = re.compile(r"TF\.FileFunction,([^*%\r\n]*)")
+_GERBER = re.compile(r"%FS[LTD]?[AI]|%MO(?:MM|IN)|^G04 ", re.M)
+_EXCELLON = re.compile(r"^M48\s*$|^;\s*DRILL|^T\d+C[\d.]+", re.M)
+_IPC356 = re.compile(r"^P\s+(?:UNITS|JOB|CODE)|^3[123]7\S", re.M)
+_JOB_SUFFIXES = {".gbrjob"}
+
+
+@dataclass(frozen=True)
+class SourceFile:
+    """One input file: where it is, how reports name it, what it is."""
+
+    path: Path
+    name: str  # how messages name it: folder path or ``archive.zip!member``
+    rel: str  # path relative to the board folder, with forward slashes
+    kind: str  # "gerber" | "excellon" | "ipc356" | "job" | "board-file" | "other"
+    file_function: tuple[str, ...] | None = None  # X2 ``.FileFunction`` from the header, if any
+
+    @property
+    def is_copper_x2(self) -> bool:
+        return self.kind == "gerber" and bool(self.file_function) and self.file_function[0] == "Copper"
+
+
+def sniff(path: Path, name: str, rel: str) -> SourceFile:
+    if path.name == BOARD_FILE_NAME:
+        return SourceFile(path, name, rel, "board-file")
+    try:
+        with open(path, "rb") as fh:
+            head = fh.read(SNIFF_BYTES).decode("latin-1")
+    except OSError:
+        return SourceFile(path, name, rel, "other")
+    function = None
+    if (m := _FILE_FUNCTION.search(head)):
+        function = tuple(p.strip() for p in m.group(1).split(","))
+    if path.suffix.lower() in _JOB_SUFFIXES or (head.lstrip().startswith("{") and '"MaterialStackup"' in head):
+        return SourceFile(path, name, rel, "job")
+    if _GERBER.search(head) and "%" in head:
+        return SourceFile(path, name, rel, "gerber", function)
+    if _EXCELLON.search(head):
+        return SourceFile(path, name, rel, "excellon", function)
+    if _IPC356.search(head):
+        return SourceFile(path, name, rel, "ipc356")
+    return SourceFile(path, name, rel, "other")
+
+
+def list_sources(root: Path, prefix: str = "") -> list[SourceFile]:
+    """All regular files below ``root`` (hidden ones skipped), sorted; ``prefix`` goes in front of display names."""
+    out = []
+    for path in sorted(root.rglob("*")):
+        rel = path.relative_to(root)
+        if any(part.startswith(".") for part in rel.parts) or not path.is_file() or path.is_symlink():
+            continue
+        out.append(sniff(path, prefix + rel.as_posix(), rel.as_posix()))
+    return out

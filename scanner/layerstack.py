@@ -1,0 +1,140 @@
+"""From a board's stackup and plane layers to the cross-section seen by each signal layer.
+
+The stackup lists copper, dielectric and soldermask top to bottom. For a
+signal layer we look toward each side for the nearest reference plane:
+planes on both sides make a stripline (symmetric or offset), a plane on one
+side and the board surface on the other a microstrip. Signal copper between
+the trace and a plane counts as dielectric (the neighbouring laminate's
+permittivity); this is the usual simplification for dual striplines.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+from scanner.board import Board, Stackup, StackupLayer
+from scanner.errors import InputError
+
+#: stated default when nothing gives a stackup (typical FR-4 class build; common practice)
+DEFAULT_TOTAL_THICKNESS_MM = 1.6
+DEFAULT_OUTER_COPPER_MM = 0.035
+DEFAULT_INNER_COPPER_MM = 0.018
+DEFAULT_EPSILON_R = 4.2
+DEFAULT_SOLDERMASK = (0.02, 3.8)
+
+
+@dataclass(frozen=True)
+class LayerEnvironment:
+    """Dielectrics around one signal layer, ordered outward from the trace.
+
+    ``toward_plane``: (thickness_mm, epsilon_r) from the trace's base down to its
+    reference plane, listed from the plane up. ``away``: from the trace's base
+    outward to the second plane (stripline) or to the surface (microstrip),
+    listed from the trace outward; for a microstrip the last entry may be soldermask.
+    """
+
+    layer_index: int
+    structure: str  # "microstrip" | "stripline"
+    toward_plane: tuple[tuple[float, float], ...]
+    away: tuple[tuple[float, float], ...]
+    trace_thickness_mm: float
+    soldermask: tuple[float, float] | None  # (thickness_mm, epsilon_r) over an outer-layer trace
+
+    @property
+    def height_mm(self) -> float:
+        """Distance from the trace base to its reference plane."""
+        return sum(t for t, _ in self.toward_plane)
+
+
+def default_stackup(copper_count: int) -> Stackup:
+    """A plain, evenly spaced build of ``copper_count`` layers, 1.6 mm overall, er 4.2."""
+    if copper_count < 1:
+        raise InputError("board has no copper layers to build a stackup for")
+    sm_t, sm_er = DEFAULT_SOLDERMASK
+    copper_t = [DEFAULT_OUTER_COPPER_MM if i in (0, copper_count - 1) else DEFAULT_INNER_COPPER_MM
+                for i in range(copper_count)]
+    gaps = max(copper_count - 1, 1)
+    diel_t = (DEFAULT_TOTAL_THICKNESS_MM - 2 * sm_t - sum(copper_t)) / gaps
+    layers = [StackupLayer("soldermask", "top mask", sm_t, sm_er)]
+    for i in range(copper_count):
+        layers.append(StackupLayer("copper", f"copper {i + 1}", copper_t[i], None, i))
+        if i < copper_count - 1:
+            layers.append(StackupLayer("dielectric", f"dielectric {i + 1}", diel_t, DEFAULT_EPSILON_R))
+    layers.append(StackupLayer("soldermask", "bottom mask", sm_t, sm_er))
+    return Stackup(tuple(layers), source="default")
+
+
+def effective_stackup(board: Board, override: Stackup | None) -> tuple[Stackup, list[str]]:
+    """The stackup to use: the rules' override, else the board's, else the stated default."""
+    warnings = []
+    stackup = override or board.stackup
+    if stackup is None:
+        stackup = default_stackup(len(board.layers))
+        warnings.append(
+            f"NO STACKUP GIVEN: assumed {len(board.layers)} copper layers evenly spaced in "
+            f"{DEFAULT_TOTAL_THICKNESS_MM} mm of er {DEFAULT_EPSILON_R} laminate; crosstalk figures "
+            "depend on it — give a job file or a [stackup] in the rules")
+    n_copper = len(stackup.copper())
+    if n_copper != len(board.layers):
+        raise InputError(
+            f"stackup ({stackup.source}) has {n_copper} copper layers but the board has {len(board.layers)}")
+    return stackup, warnings
+
+
+def layer_environments(board: Board, stackup: Stackup, plane_layers: set[int]) -> dict[int, LayerEnvironment]:
+    """Cross-section environment of every signal layer that has a reference plane."""
+    items = list(stackup.layers)
+    copper_pos = [i for i, item in enumerate(items) if item.kind == "copper"]
+    envs = {}
+    for layer in board.layers:
+        if layer.index in plane_layers:
+            continue
+        pos = copper_pos[layer.index]
+        below = _walk(items, pos, +1, plane_layers)
+        above = _walk(items, pos, -1, plane_layers)
+        thickness = items[pos].thickness_mm
+        if below.plane and above.plane:
+            # reference on the nearer side; the trace base faces it
+            near, far = (below, above) if below.height <= above.height else (above, below)
+            env = LayerEnvironment(layer.index, "stripline", tuple(reversed(near.dielectrics)),
+                                   tuple(far.dielectrics), thickness, None)
+        elif below.plane or above.plane:
+            near, far = (below, above) if below.plane else (above, below)
+            mask = far.dielectrics[-1] if far.mask else None
+            env = LayerEnvironment(layer.index, "microstrip", tuple(reversed(near.dielectrics)),
+                                   tuple(far.dielectrics), thickness, mask)
+        else:
+            continue
+        envs[layer.index] = env
+    return envs
+
+
+@dataclass
+class _Walk:
+    dielectrics: list[tuple[float, float]]
+    plane: bool
+    mask: bool
+
+    @property
+    def height(self) -> float:
+        return sum(t for t, _ in self.dielectrics)
+
+
+def _walk(items: list[StackupLayer], pos: int, step: int, plane_layers: set[int]) -> _Walk:
+    """From copper item ``pos`` outward until a plane or the surface; list (t, er) from the trace outward."""
+    out: list[tuple[float, float]] = []
+    i = pos + step
+    last_er = DEFAULT_EPSILON_R
+    while 0 <= i < len(items):
+        item = items[i]
+        if item.kind == "copper":
+            if item.copper_index in plane_layers:
+                return _Walk(out, True, False)
+            out.append((item.thickness_mm, last_er))
+        elif item.kind == "dielectric":
+            last_er = item.epsilon_r
+            out.append((item.thickness_mm, item.epsilon_r))
+        elif item.kind == "soldermask":
+            out.append((item.thickness_mm, item.epsilon_r))
+            return _Walk(out, False, True)
+        i += step
+    return _Walk(out, False, False)

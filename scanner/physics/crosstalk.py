@@ -1,0 +1,157 @@
+"""Victim noise in the weak-coupling model: waveforms and peaks (docs/physics.md §3).
+
+The aggressor edge is a linear ramp of ``swing_v`` whose 10-90 % rise time is
+``rise_time_s`` (ramp duration T = rise_time / 0.8). Lines are lossless, the
+aggressor is matched and the victim's near end is matched. The victim's far
+end is matched (``far_end_receiver='matched'``) or open (``'high_z'``: the
+far-end wave doubles there and its reflection reaches the near end one delay
+later). A run is a chain of pieces, each with its own Kb, Kf, length and
+velocity, listed from end A to end B; the driver may sit at either end.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from scanner.physics.coupling import WEAK_COUPLING_LIMIT
+
+#: a 10-90 % rise time covers 80 % of a linear ramp
+RAMP_PER_RISE_TIME = 1 / 0.8
+RECEIVERS = ("matched", "high_z")
+
+
+def ramp_duration_s(rise_time_s):
+    """Full ramp duration T = rise_time / 0.8 for a 10-90 % rise time."""
+    return np.asarray(rise_time_s, dtype=float) * RAMP_PER_RISE_TIME
+
+
+def saturation_length_m(velocity_m_per_s, rise_time_s):
+    """Coupled length beyond which the near-end noise stops growing: v T / 2."""
+    return np.asarray(velocity_m_per_s, dtype=float) * ramp_duration_s(rise_time_s) / 2
+
+
+def near_end_peak(kb, length_m, velocity_m_per_s, rise_time_s, swing_v):
+    """Uniform run: Kb * swing * min(1, 2 TD / T), TD = length / velocity (vectorised)."""
+    two_td = 2 * np.asarray(length_m, dtype=float) / velocity_m_per_s
+    return np.asarray(kb) * swing_v * np.minimum(1.0, two_td / ramp_duration_s(rise_time_s))
+
+
+def far_end_peak(kf_s_per_m, length_m, rise_time_s, swing_v, far_end_receiver="matched"):
+    """Uniform run: Kf * length * swing / T, doubled at a high-impedance receiver (signed, vectorised)."""
+    return _receiver_gain(far_end_receiver) * np.asarray(kf_s_per_m) * length_m * swing_v / ramp_duration_s(
+        rise_time_s)
+
+
+def _receiver_gain(far_end_receiver: str) -> float:
+    if far_end_receiver not in RECEIVERS:
+        raise ValueError(f"far_end_receiver must be one of {RECEIVERS}, got {far_end_receiver!r}")
+    return 2.0 if far_end_receiver == "high_z" else 1.0
+
+
+def _ramp(t, ramp_s):
+    return np.clip(t / ramp_s, 0.0, 1.0)
+
+
+def _pulse(t, ramp_s):
+    """Derivative of the unit ramp: 1/T on [0, T)."""
+    return np.where((t >= 0) & (t < ramp_s), 1.0 / ramp_s, 0.0)
+
+
+@dataclass(frozen=True)
+class _Run:
+    kb: np.ndarray
+    kf: np.ndarray
+    length_m: np.ndarray
+    delay_s: np.ndarray
+
+    @classmethod
+    def of(cls, kb, kf, length_m, velocity_m_per_s) -> "_Run":
+        kb, kf, length_m, velocity = np.broadcast_arrays(*(np.atleast_1d(np.asarray(a, dtype=float))
+                                                           for a in (kb, kf, length_m, velocity_m_per_s)))
+        if np.any(length_m < 0) or np.any(velocity <= 0):
+            raise ValueError("lengths must not be negative and velocities must be positive")
+        return cls(kb, kf, length_m, length_m / velocity)
+
+    def reversed(self) -> "_Run":
+        return _Run(self.kb[::-1], self.kf[::-1], self.length_m[::-1], self.delay_s[::-1])
+
+    @property
+    def total_delay_s(self) -> float:
+        return float(self.delay_s.sum())
+
+    @property
+    def forward_sum(self) -> float:
+        return float(np.sum(self.kf * self.length_m))
+
+    def near_end(self, t, ramp_s, gain):
+        """Near-end voltage per volt of swing at times t (any shape)."""
+        t = np.asarray(t, dtype=float)[..., None]
+        start = 2 * (np.cumsum(self.delay_s) - self.delay_s)
+        backward = np.sum(self.kb * (_ramp(t - start, ramp_s) - _ramp(t - start - 2 * self.delay_s, ramp_s)), axis=-1)
+        reflected = (gain - 1) * self.forward_sum * _pulse(t[..., 0] - 2 * self.total_delay_s, ramp_s)
+        return backward + reflected
+
+    def far_end(self, t, ramp_s, gain):
+        return gain * self.forward_sum * _pulse(np.asarray(t, dtype=float) - self.total_delay_s, ramp_s)
+
+    def near_end_extreme(self, ramp_s, gain) -> float:
+        """Signed near-end value of largest magnitude: the waveform is piecewise linear, so check breakpoints."""
+        start = 2 * (np.cumsum(self.delay_s) - self.delay_s)
+        knots = np.concatenate([start, start + 2 * self.delay_s, [2 * self.total_delay_s]])
+        knots = np.concatenate([knots, knots + ramp_s])
+        eps = 1e-9 * ramp_s
+        t = np.concatenate([knots - eps, knots + eps, knots])
+        values = self.near_end(t, ramp_s, gain)
+        return float(values[np.argmax(np.abs(values))])
+
+
+@dataclass(frozen=True)
+class VictimNoise:
+    """Peaks (V, signed) on one victim from one aggressor; the worse orientation of the run.
+
+    ``worst_orientation``: 'a' when the driver at the run's first piece gives the
+    larger near-end noise, else 'b'. Waveforms are present only when requested.
+    """
+
+    next_v: float
+    fext_v: float
+    worst_orientation: str
+    next_v_a: float
+    next_v_b: float
+    weak_coupling: bool
+    time_s: np.ndarray | None = None
+    near_end_v: np.ndarray | None = None
+    far_end_v: np.ndarray | None = None
+
+
+def piecewise_peaks(kb, kf, length_m, velocity_m_per_s, rise_time_s, swing_v, far_end_receiver="matched",
+                    waveforms: bool = False, time_s: np.ndarray | None = None) -> VictimNoise:
+    """NEXT and FEXT peaks for a run made of pieces (arrays, one entry per piece, from end A to end B).
+
+    Near end: sum_k Kb_k (V(t - 2 tau_k) - V(t - 2 tau_k - 2 TD_k)), peak of the sum;
+    far end: sum_k Kf_k l_k dV/dt(t - TD_total). With ``waveforms`` the waveforms of the
+    worse orientation are returned on ``time_s`` (default: 2000 points up to 2 TD + 3 T).
+    """
+    run = _Run.of(kb, kf, length_m, velocity_m_per_s)
+    ramp_s = float(ramp_duration_s(rise_time_s))
+    gain = _receiver_gain(far_end_receiver)
+    next_a = swing_v * run.near_end_extreme(ramp_s, gain)
+    next_b = swing_v * run.reversed().near_end_extreme(ramp_s, gain)
+    worst = "b" if abs(next_b) > abs(next_a) * (1 + 1e-9) else "a"
+    fext = gain * swing_v * run.forward_sum / ramp_s
+    result = dict(next_v=next_b if worst == "b" else next_a, fext_v=fext, worst_orientation=worst,
+                  next_v_a=next_a, next_v_b=next_b,
+                  weak_coupling=bool(np.all(np.abs(run.kb) <= WEAK_COUPLING_LIMIT)))
+    if waveforms:
+        if time_s is None:
+            time_s = np.linspace(0.0, 2 * run.total_delay_s + 3 * ramp_s, 2000)
+        oriented = run.reversed() if worst == "b" else run
+        result.update(time_s=np.asarray(time_s), near_end_v=swing_v * oriented.near_end(time_s, ramp_s, gain),
+                      far_end_v=swing_v * oriented.far_end(time_s, ramp_s, gain))
+    return VictimNoise(**result)
+
+
+def aggressor_edge(time_s, rise_time_s, swing_v):
+    """The aggressor's incident wave at the driven end: a linear ramp from 0 to swing_v starting at t = 0."""
+    return swing_v * _ramp(np.asarray(time_s, dtype=float), float(ramp_duration_s(rise_time_s)))

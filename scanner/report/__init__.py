@@ -1,0 +1,1 @@
+"""Report writers: terminal table, report.json, hotspots.csv (and, where available, images and a page)."""

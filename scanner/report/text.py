@@ -1,0 +1,65 @@
+"""The terminal report: settings in force, a compact ranked table, a summary line."""
+from __future__ import annotations
+
+from scanner.score import CAUTION, ScanResult
+
+STATUS_MARK = {"fail": "FAIL", "warn": "warn", "pass": "ok"}
+
+
+def _trim(text: str, width: int) -> str:
+    return text if len(text) <= width else text[: width - 1] + "…"
+
+
+def render(result: ScanResult, top: int = 20) -> str:
+    s = result.settings
+    lines = [f"nearfar scan of {result.board['name']} ({result.board['format']}, "
+             f"{len(result.board['layers'])} copper layers, {result.board['nets']} nets)",
+             f"stackup: {result.stackup['source']}   rules: {result.rules['source']}   "
+             f"search distance {s['search_distance_mm']} mm ({s['search_distance_source']}), "
+             f"runs shorter than {s['min_coupled_length_mm']} mm ignored, "
+             f"parallel within {s['angle_tolerance_deg']}°",
+             "classes: " + "; ".join(
+                 f"{c['name']} ({', '.join(c['patterns'])}): tr {c['rise_time_ns']} ns, {c['swing_v']} V, "
+                 f"budgets NEXT {_budget(c, 'next')} FEXT {_budget(c, 'fext')}, {c['termination']}"
+                 for c in result.rules["classes"] + [result.rules["default_class"]]),
+             ]
+    for w in result.warnings[:8]:
+        lines.append(f"warning: {w}")
+    if len(result.warnings) > 8:
+        lines.append(f"warning: … and {len(result.warnings) - 8} more (see report.json)")
+    lines.append("")
+    header = ("#", "status", "victim", "aggressor", "layer", "len mm", "gap mm", "NEXT mV", "FEXT mV", "used", "at x,y mm", "fix")
+    rows = []
+    for h in result.hotspots[:top]:
+        fix = h.fix or {}
+        fix_text = ""
+        if fix.get("spacing_needed_mm") is not None:
+            fix_text = f"gap≥{fix['spacing_needed_mm']:.3g}"
+        if fix.get("max_length_mm") is not None:
+            fix_text += (" or " if fix_text else "") + f"len≤{fix['max_length_mm']:.3g}"
+        rows.append((str(h.rank), STATUS_MARK[h.status], _trim(h.victim, 18), _trim(h.aggressor, 18),
+                     _trim(h.layer, 10), f"{h.coupled_length_mm:.1f}", f"{h.min_spacing_mm:.3f}",
+                     f"{h.next_mv:.0f}", f"{h.fext_mv:.0f}", f"{100 * h.budget_used:.0f}%",
+                     f"{h.x_mm:.2f},{h.y_mm:.2f}", fix_text))
+    if rows:
+        widths = [max(len(r[i]) for r in rows + [header]) for i in range(len(header))]
+        right = {0, 5, 6, 7, 8, 9}
+        for r in [header] + rows:
+            lines.append("  ".join(c.rjust(w) if i in right else c.ljust(w)
+                                   for i, (c, w) in enumerate(zip(r, widths))).rstrip())
+        if len(result.hotspots) > top:
+            lines.append(f"… {len(result.hotspots) - top} more hotspots in report.json / hotspots.csv")
+    else:
+        lines.append("no coupled runs above the minimum length")
+    sm = result.summary
+    lines += ["", f"{sm['victims']} victims: {sm['victims_fail']} fail, {sm['victims_warn']} warn, "
+                  f"{sm['victims_pass']} pass — {sm['coupled_runs']} coupled runs scored. "
+                  f"Overall: {result.worst_status.upper()}",
+              f"caution: {CAUTION}"]
+    return "\n".join(lines)
+
+
+def _budget(c: dict, kind: str) -> str:
+    mv = c.get(f"{kind}_budget_mv")
+    return f"{mv:g} mV" if mv is not None else f"{c.get(f'{kind}_budget_pct'):g}%"
+

@@ -1,0 +1,354 @@
+"""The rules file: net classes, differential pairs, power nets, scan settings, stackup overrides.
+
+A TOML file (see docs/rules.md). Every key is checked; unknown keys and wrong
+types are input errors naming the file. Without a file the defaults below
+apply, and they are printed at the top of every report.
+"""
+from __future__ import annotations
+
+import fnmatch
+import re
+import tomllib
+from dataclasses import dataclass, field, asdict
+from pathlib import Path
+
+import numpy as np
+
+from scanner.board import Stackup, StackupLayer
+from scanner.errors import InputError
+
+TERMINATIONS = ("matched", "high-z-receiver")
+DIFF_AGGRESSOR_MODELS = ("two-lines", "odd-mode")
+BUDGET_BASES = ("worst-case", "rss")
+
+#: suffix conventions recognised for automatic differential pairing: (positive, negative)
+DIFF_SUFFIXES = (("_P", "_N"), ("+", "-"), ("_DP", "_DN"), ("_T", "_C"))
+
+#: default power and ground patterns (common practice in net naming)
+DEFAULT_POWER_PATTERNS = ("GND*", "*_GND", "AGND*", "DGND*", "PGND*", "VSS*", "VCC*", "VDD*", "VBUS", "+*")
+
+
+@dataclass(frozen=True)
+class NetClass:
+    """What a class of nets does as aggressor (edge) and tolerates as victim (budgets)."""
+
+    name: str
+    patterns: tuple[str, ...]
+    rise_time_ns: float = 1.0
+    swing_v: float = 3.3
+    next_budget_pct: float | None = 5.0
+    fext_budget_pct: float | None = 5.0
+    next_budget_mv: float | None = None
+    fext_budget_mv: float | None = None
+    termination: str = "high-z-receiver"
+
+    def next_budget_v(self) -> float:
+        return _budget_v(self.next_budget_mv, self.next_budget_pct, self.swing_v)
+
+    def fext_budget_v(self) -> float:
+        return _budget_v(self.fext_budget_mv, self.fext_budget_pct, self.swing_v)
+
+
+def _budget_v(mv, pct, swing_v) -> float:
+    if mv is not None:
+        return mv * 1e-3
+    if pct is not None:
+        return pct / 100.0 * swing_v
+    return float("inf")
+
+
+DEFAULT_CLASS = NetClass(name="default", patterns=("*",))
+
+
+@dataclass(frozen=True)
+class ScanSettings:
+    search_distance_mm: float | None = None  # None: derived from the stackup
+    min_coupled_length_mm: float = 2.0
+    angle_tolerance_deg: float = 10.0
+    warn_fraction: float = 0.8  # warn at 80 % of budget and above
+    budget_basis: str = "worst-case"
+    differential_aggressor: str = "two-lines"
+    auto_diff_pairs: bool = True
+
+
+@dataclass(frozen=True)
+class Rules:
+    classes: tuple[NetClass, ...] = ()
+    power_patterns: tuple[str, ...] = DEFAULT_POWER_PATTERNS
+    diff_pairs: tuple[tuple[str, str], ...] = ()  # explicit (positive pattern, negative pattern)
+    scan: ScanSettings = field(default_factory=ScanSettings)
+    stackup: Stackup | None = None
+    planes: tuple[str, ...] = ()  # copper layer names forced to plane
+    source: str = "defaults"
+
+    def class_of(self, net_name: str) -> NetClass:
+        """The first class (in file order) whose pattern matches; the default class otherwise."""
+        for cls in self.classes:
+            if any(_match(net_name, p) for p in cls.patterns):
+                return cls
+        return DEFAULT_CLASS
+
+    def is_power(self, net_name: str) -> bool:
+        return any(_match(net_name, p) for p in self.power_patterns)
+
+    def to_dict(self) -> dict:
+        d = {
+            "source": self.source,
+            "scan": asdict(self.scan),
+            "classes": [asdict(c) | {"patterns": list(c.patterns)} for c in self.classes],
+            "default_class": asdict(DEFAULT_CLASS) | {"patterns": ["(any net no class matches)"]},
+            "power_patterns": list(self.power_patterns),
+            "diff_pairs": [list(p) for p in self.diff_pairs],
+            "planes": list(self.planes),
+        }
+        if self.stackup is not None:
+            d["stackup"] = [asdict(layer) for layer in self.stackup.layers]
+        return d
+
+
+def _match(name: str, pattern: str) -> bool:
+    return fnmatch.fnmatchcase(name.upper(), pattern.upper())
+
+
+# --------------------------------------------------------------------------- net roles
+
+
+@dataclass(frozen=True)
+class NetRoles:
+    """Per-net facts the finder and scorer need, as arrays indexed by net id."""
+
+    class_index: np.ndarray  # index into the class list (len(classes) means the default class)
+    active: np.ndarray  # bool: takes part as aggressor and victim
+    partner: np.ndarray  # differential partner net id or -1
+    polarity: np.ndarray  # +1 positive member, -1 negative member, 0 single-ended
+    classes: tuple[NetClass, ...]
+
+
+def assign_roles(net_names: list[str], rules: Rules, plane_nets: set[str] = frozenset()) -> NetRoles:
+    """Classify nets: class, power/ground (inactive), differential partner."""
+    classes = tuple(rules.classes) + (DEFAULT_CLASS,)
+    n = len(net_names)
+    class_index = np.empty(n, dtype=np.int32)
+    active = np.ones(n, dtype=bool)
+    for i, name in enumerate(net_names):
+        cls = rules.class_of(name)
+        class_index[i] = classes.index(cls)
+        if rules.is_power(name) or name in plane_nets:
+            active[i] = False
+    partner = np.full(n, -1, dtype=np.int32)
+    polarity = np.zeros(n, dtype=np.int8)
+    index = {name: i for i, name in enumerate(net_names)}
+    for pos_name, neg_name in _pairs(net_names, rules, index):
+        p, q = index[pos_name], index[neg_name]
+        if partner[p] < 0 and partner[q] < 0:
+            partner[p], partner[q] = q, p
+            polarity[p], polarity[q] = 1, -1
+    return NetRoles(class_index, active, partner, polarity, classes)
+
+
+def _pairs(net_names, rules: Rules, index: dict):
+    for pos_pat, neg_pat in rules.diff_pairs:
+        for name in net_names:
+            m = _pattern_capture(pos_pat, name)
+            if m is None:
+                continue
+            other = _fill(neg_pat, m)
+            if other in index:
+                yield name, other
+    if rules.scan.auto_diff_pairs:
+        for name in net_names:
+            for pos_sfx, neg_sfx in DIFF_SUFFIXES:
+                if name.upper().endswith(pos_sfx) and len(name) > len(pos_sfx):
+                    other = name[: -len(pos_sfx)] + _same_case(neg_sfx, name[-len(pos_sfx):])
+                    if other in index:
+                        yield name, other
+
+
+def _same_case(suffix: str, like: str) -> str:
+    return suffix.lower() if like.islower() else suffix
+
+
+def _pattern_capture(pattern: str, name: str):
+    rx = "^" + re.escape(pattern).replace(r"\*", "(.*)") + "$"
+    m = re.match(rx, name, flags=re.IGNORECASE)
+    return None if m is None else m.groups()
+
+
+def _fill(pattern: str, groups) -> str:
+    parts = pattern.split("*")
+    out = parts[0]
+    for g, rest in zip(groups, parts[1:]):
+        out += g + rest
+    return out
+
+
+# --------------------------------------------------------------------------- loading
+
+
+_CLASS_KEYS = {
+    "name": str, "nets": list, "rise_time_ns": float, "swing_v": float,
+    "next_budget_pct": float, "fext_budget_pct": float, "next_budget_mv": float, "fext_budget_mv": float,
+    "termination": str,
+}
+_SCAN_KEYS = {
+    "search_distance_mm": float, "min_coupled_length_mm": float, "angle_tolerance_deg": float,
+    "warn_fraction": float, "budget_basis": str, "differential_aggressor": str, "auto_diff_pairs": bool,
+}
+_STACK_KEYS = {"kind": str, "name": str, "thickness_mm": float, "epsilon_r": float}
+_TOP_KEYS = {"scan", "class", "power", "diff_pair", "stackup", "planes"}
+
+
+def load_rules(path: str | Path | None) -> Rules:
+    """Read a rules file; ``None`` gives the defaults."""
+    if path is None:
+        return Rules()
+    path = Path(path)
+    try:
+        text = path.read_text(encoding="utf-8")
+    except FileNotFoundError:
+        raise InputError("rules file not found", path) from None
+    except (OSError, UnicodeDecodeError) as exc:
+        raise InputError(f"cannot read rules file ({exc.__class__.__name__})", path) from None
+    try:
+        doc = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        line = getattr(exc, "lineno", None) or _toml_line(str(exc))
+        raise InputError(f"not valid TOML: {str(exc).split(' (at')[0]}", path, line) from None
+    return parse_rules(doc, str(path))
+
+
+def _toml_line(msg: str):
+    m = re.search(r"line (\d+)", msg)
+    return int(m.group(1)) if m else None
+
+
+def parse_rules(doc: dict, source: str) -> Rules:
+    def bad(msg):
+        return InputError(msg, source)
+
+    unknown = set(doc) - _TOP_KEYS
+    if unknown:
+        raise bad(f"unknown key(s) {', '.join(sorted(unknown))}; allowed: {', '.join(sorted(_TOP_KEYS))}")
+
+    scan_kw = _typed(doc.get("scan", {}), _SCAN_KEYS, "[scan]", bad)
+    _check_choice(scan_kw.get("budget_basis"), BUDGET_BASES, "[scan] budget_basis", bad)
+    _check_choice(scan_kw.get("differential_aggressor"), DIFF_AGGRESSOR_MODELS, "[scan] differential_aggressor", bad)
+    for key in ("search_distance_mm", "min_coupled_length_mm"):
+        if key in scan_kw and not scan_kw[key] > 0:
+            raise bad(f"[scan] {key} must be positive")
+    if "angle_tolerance_deg" in scan_kw and not 0 < scan_kw["angle_tolerance_deg"] < 45:
+        raise bad("[scan] angle_tolerance_deg must be between 0 and 45")
+    if "warn_fraction" in scan_kw and not 0 < scan_kw["warn_fraction"] <= 1:
+        raise bad("[scan] warn_fraction must be in (0, 1]")
+    scan = ScanSettings(**scan_kw)
+
+    classes = []
+    raw_classes = doc.get("class", [])
+    if not isinstance(raw_classes, list):
+        raise bad("[[class]] must be an array of tables")
+    for i, raw in enumerate(raw_classes):
+        where = f"[[class]] #{i + 1}"
+        kw = _typed(raw, _CLASS_KEYS, where, bad)
+        if "name" not in kw or "nets" not in kw:
+            raise bad(f"{where} needs 'name' and 'nets'")
+        patterns = kw.pop("nets")
+        if not patterns or not all(isinstance(p, str) and p for p in patterns):
+            raise bad(f"{where} 'nets' must be a list of name patterns")
+        for key in ("rise_time_ns", "swing_v"):
+            if key in kw and not kw[key] > 0:
+                raise bad(f"{where} {key} must be positive")
+        for key in ("next_budget_pct", "fext_budget_pct", "next_budget_mv", "fext_budget_mv"):
+            if key in kw and not kw[key] > 0:
+                raise bad(f"{where} {key} must be positive")
+        _check_choice(kw.get("termination"), TERMINATIONS, f"{where} termination", bad)
+        if "next_budget_mv" in kw and "next_budget_pct" not in kw:
+            kw["next_budget_pct"] = None
+        if "fext_budget_mv" in kw and "fext_budget_pct" not in kw:
+            kw["fext_budget_pct"] = None
+        classes.append(NetClass(patterns=tuple(patterns), **kw))
+    names = [c.name for c in classes]
+    if len(set(names)) != len(names):
+        raise bad("[[class]] names must be unique")
+
+    power = doc.get("power", {})
+    if not isinstance(power, dict) or set(power) - {"nets", "replace_defaults"}:
+        raise bad("[power] takes 'nets' (list) and 'replace_defaults' (bool)")
+    power_nets = power.get("nets", [])
+    if not isinstance(power_nets, list) or not all(isinstance(p, str) for p in power_nets):
+        raise bad("[power] nets must be a list of name patterns")
+    replace = power.get("replace_defaults", False)
+    if not isinstance(replace, bool):
+        raise bad("[power] replace_defaults must be true or false")
+    power_patterns = tuple(power_nets) if replace else DEFAULT_POWER_PATTERNS + tuple(power_nets)
+
+    pairs = []
+    for i, raw in enumerate(doc.get("diff_pair", [])):
+        if not isinstance(raw, dict) or set(raw) != {"positive", "negative"}:
+            raise bad(f"[[diff_pair]] #{i + 1} needs exactly 'positive' and 'negative' patterns")
+        if not all(isinstance(v, str) and v for v in raw.values()):
+            raise bad(f"[[diff_pair]] #{i + 1} patterns must be strings")
+        if raw["positive"].count("*") != raw["negative"].count("*"):
+            raise bad(f"[[diff_pair]] #{i + 1} positive and negative need the same number of '*'")
+        pairs.append((raw["positive"], raw["negative"]))
+
+    planes = doc.get("planes", [])
+    if not isinstance(planes, list) or not all(isinstance(p, str) for p in planes):
+        raise bad("'planes' must be a list of copper layer names")
+
+    stackup = None
+    if "stackup" in doc:
+        stackup = _parse_stackup(doc["stackup"], bad)
+
+    return Rules(classes=tuple(classes), power_patterns=power_patterns, diff_pairs=tuple(pairs), scan=scan,
+                 stackup=stackup, planes=tuple(planes), source=source)
+
+
+def _parse_stackup(raw, bad) -> Stackup:
+    if not isinstance(raw, dict) or set(raw) != {"layers"} or not isinstance(raw["layers"], list):
+        raise bad("[stackup] takes one key, 'layers', a list of tables top to bottom")
+    layers = []
+    copper = 0
+    for i, item in enumerate(raw["layers"]):
+        where = f"[stackup] layer #{i + 1}"
+        kw = _typed(item, _STACK_KEYS, where, bad)
+        kind = kw.get("kind")
+        _check_choice(kind, ("copper", "dielectric", "soldermask"), f"{where} kind", bad)
+        if kind is None:
+            raise bad(f"{where} needs 'kind'")
+        t = kw.get("thickness_mm")
+        if t is None or not 0 < t < 10:
+            raise bad(f"{where} thickness_mm must be given and between 0 and 10 mm")
+        er = kw.get("epsilon_r")
+        if kind != "copper":
+            if er is None or not 1.0 <= er <= 100:
+                raise bad(f"{where} epsilon_r must be given and between 1 and 100")
+        layers.append(StackupLayer(kind=kind, name=kw.get("name", f"{kind}{i + 1}"), thickness_mm=t,
+                                   epsilon_r=er if kind != "copper" else None,
+                                   copper_index=copper if kind == "copper" else None))
+        copper += kind == "copper"
+    if copper == 0:
+        raise bad("[stackup] has no copper layers")
+    return Stackup(layers=tuple(layers), source="rules")
+
+
+def _typed(raw, schema: dict, where: str, bad) -> dict:
+    if not isinstance(raw, dict):
+        raise bad(f"{where} must be a table")
+    out = {}
+    for key, value in raw.items():
+        if key not in schema:
+            raise bad(f"{where}: unknown key '{key}'; allowed: {', '.join(schema)}")
+        want = schema[key]
+        if want is float and isinstance(value, int) and not isinstance(value, bool):
+            value = float(value)
+        if not isinstance(value, want) or (want is not bool and isinstance(value, bool)):
+            raise bad(f"{where}: '{key}' must be {want.__name__}, got {type(value).__name__}")
+        if want is float and not np.isfinite(value):
+            raise bad(f"{where}: '{key}' must be finite")
+        out[key] = value
+    return out
+
+
+def _check_choice(value, choices, where, bad):
+    if value is not None and value not in choices:
+        raise bad(f"{where} must be one of {', '.join(choices)}, got '{value}'")

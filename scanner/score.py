@@ -1,0 +1,129 @@
+"""Findings: scored coupled runs, per-victim totals, budget checks and ranking.
+
+Plain result records and the JSON shape of ``report.json`` (schema
+``nearfar.report/1``, documented in docs/report-schema.md).
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass, field, asdict
+
+SCHEMA = "nearfar.report/1"
+
+CAUTION = ("Crosstalk figures are engineering estimates from a quasi-static, lossless, weak-coupling model. "
+           "Confirm critical nets by measurement or full-wave/circuit simulation, and follow your "
+           "organisation's own sign-off practice.")
+
+STATUS_ORDER = {"fail": 0, "warn": 1, "pass": 2}
+
+
+def status_for(fraction: float, warn_fraction: float) -> str:
+    """pass / warn / fail from the fraction of budget used."""
+    if fraction > 1.0:
+        return "fail"
+    if fraction >= warn_fraction:
+        return "warn"
+    return "pass"
+
+
+@dataclass(frozen=True)
+class Hotspot:
+    """One aggressor coupling into one victim over one coupled run."""
+
+    rank: int
+    status: str
+    victim: str
+    aggressor: str
+    victim_class: str
+    aggressor_class: str
+    aggressor_model: str  # "single", "differential (two lines)", "differential (odd mode)"
+    layer: str
+    layers: list[str]
+    structure: str  # microstrip / stripline / mixed
+    coupled_length_mm: float
+    min_spacing_mm: float
+    mean_spacing_mm: float
+    x_mm: float
+    y_mm: float
+    extent_mm: list[float]  # worst piece x0, y0, x1, y1
+    bbox_mm: list[float]  # run x_min, y_min, x_max, y_max
+    next_mv: float
+    fext_mv: float
+    next_pct: float
+    fext_pct: float
+    next_budget_mv: float
+    fext_budget_mv: float
+    budget_used: float  # largest of NEXT and FEXT fraction of budget
+    kb_max: float
+    strong_coupling: bool
+    rise_time_ns: float
+    swing_v: float
+    termination: str
+    victim_swing_v: float
+    run: int  # index into the scan's coupled runs
+    fix: dict | None = None
+
+    def to_dict(self) -> dict:
+        d = asdict(self)
+        d.pop("run")
+        return d
+
+
+@dataclass(frozen=True)
+class VictimTotal:
+    net: str
+    net_class: str
+    status: str
+    next_worst_pct: float
+    fext_worst_pct: float
+    next_rss_pct: float
+    fext_rss_pct: float
+    next_worst_mv: float
+    fext_worst_mv: float
+    next_budget_mv: float
+    fext_budget_mv: float
+    budget_used: float
+    aggressors: list[str]
+
+    def to_dict(self) -> dict:
+        return asdict(self)
+
+
+@dataclass
+class ScanResult:
+    """Everything a report needs; ``to_dict`` is report.json."""
+
+    board: dict
+    stackup: dict
+    rules: dict
+    settings: dict
+    hotspots: list[Hotspot]
+    victims: list[VictimTotal]
+    warnings: list[str] = field(default_factory=list)
+    runs: object = None  # scanner.runs.CoupledRuns, for overlays
+    summary: dict = field(default_factory=dict)
+
+    @property
+    def worst_status(self) -> str:
+        statuses = [v.status for v in self.victims]
+        for s in ("fail", "warn"):
+            if s in statuses:
+                return s
+        return "pass"
+
+    @property
+    def exit_code(self) -> int:
+        return 1 if self.worst_status == "fail" else 0
+
+    def to_dict(self) -> dict:
+        return {
+            "schema": SCHEMA,
+            "caution": CAUTION,
+            "board": self.board,
+            "stackup": self.stackup,
+            "rules": self.rules,
+            "settings": self.settings,
+            "summary": self.summary,
+            "warnings": list(self.warnings),
+            "hotspots": [h.to_dict() for h in self.hotspots],
+            "victims": [v.to_dict() for v in self.victims],
+        }

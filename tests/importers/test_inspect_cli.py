@@ -1,0 +1,73 @@
+"""``nearfar inspect``: tables, JSON, and exit status 2 without traceback on bad input."""
+import json
+import subprocess
+import sys
+
+import pytest
+from click.testing import CliRunner
+
+from scanner.cli import cli, main
+
+from artwork import write_board
+
+
+def _main(args, capsys):
+    with pytest.raises(SystemExit) as info:
+        main(args)
+    out = capsys.readouterr()
+    return info.value.code, out.out, out.err
+
+
+def test_json_fields(tmp_path, capsys):
+    folder = write_board(tmp_path, x2=False)
+    code, out, err = _main(["inspect", str(folder), "--json"], capsys)
+    assert code == 0
+    data = json.loads(out)
+    assert [(l["name"], l["index"], l["kind"]) for l in data["layers"]] == [("L01", 0, "signal"), ("L02", 1, "signal")]
+    assert data["layers"][0]["segments"] == 4
+    # top traces: 20 + 20 + 15 + 5 mm
+    assert data["layers"][0]["trace_length_mm"] == pytest.approx(60.0)
+    assert data["nets"] == 4
+    assert data["stackup"] is None
+    n = data["netting"]
+    assert (n["netlist_points_matched"], n["netlist_points_total"]) == (4, 4)
+    assert n["shorts"] == [] and n["opens"] == [] and 0 < n["netted_trace_fraction"] < 1
+
+
+def test_table_output(tmp_path):
+    folder = write_board(tmp_path, x2=True)
+    result = CliRunner().invoke(cli, ["inspect", str(folder)])
+    assert result.exit_code == 0, result.output
+    assert "L01" in result.output and "gerber-x2" in result.output and "shorts: 0" in result.output
+
+
+@pytest.mark.parametrize("make, message", [
+    (lambda p: p / "missing", "not found"),
+    (lambda p: (p / "x.txt").write_text("hi") and p, "no importer"),
+])
+def test_bad_input_exit_status_2(tmp_path, capsys, make, message):
+    target = make(tmp_path)
+    code, out, err = _main(["inspect", str(target)], capsys)
+    assert code == 2
+    assert message in err and "Traceback" not in err
+    assert len(err.strip().splitlines()) == 1
+
+
+def test_bad_gerber_names_file_and_line(tmp_path, capsys):
+    folder = write_board(tmp_path, x2=True)
+    bad = folder / "board-top.gbr"
+    lines = bad.read_text().splitlines()
+    lines.insert(8, "D99*")
+    bad.write_text("\n".join(lines))
+    code, _, err = _main(["inspect", str(folder)], capsys)
+    assert code == 2
+    assert f"{bad}:9:" in err and "undefined aperture" in err
+
+
+def test_subprocess_exit_status_and_no_traceback(tmp_path):
+    folder = write_board(tmp_path, x2=False)
+    (folder / "board.ipc").write_text("P  UNITS PARSECS\n999\n")
+    proc = subprocess.run([sys.executable, "-c", "from scanner.cli import main; main()", "inspect", str(folder)],
+                          capture_output=True, text=True, timeout=120)
+    assert proc.returncode == 2
+    assert "board.ipc:1:" in proc.stderr and "PARSECS" in proc.stderr and "Traceback" not in proc.stderr

@@ -1,0 +1,84 @@
+"""Weak-coupling waveforms and peaks (docs/physics.md §3)."""
+import numpy as np
+import pytest
+
+from scanner.physics import far_end_peak, near_end_peak, piecewise_peaks, saturation_length_m
+from scanner.physics.crosstalk import ramp_duration_s
+
+V = 1.5e8  # m/s, about 15 cm/ns: stripline in er 4 (common practice)
+TR = 100e-12
+
+
+def test_ramp_and_saturation_length():
+    assert ramp_duration_s(80e-12) == pytest.approx(100e-12)
+    # l_sat = v T / 2 (docs/physics.md §3): 15 cm/ns * 125 ps / 2
+    assert saturation_length_m(V, TR) == pytest.approx(V * 125e-12 / 2)
+
+
+def test_near_end_peak_grows_then_saturates():
+    l_sat = saturation_length_m(V, TR)
+    lengths = np.array([0.25, 0.5, 1.0, 2.0, 8.0]) * l_sat
+    peaks = near_end_peak(0.05, lengths, V, TR, 1.0)
+    assert np.allclose(peaks, 0.05 * np.minimum(1, lengths / l_sat))
+
+
+def test_far_end_peak_linear_in_length_and_doubles_at_high_impedance():
+    kf = -1e-10
+    assert far_end_peak(kf, 0.1, TR, 1.0) == pytest.approx(kf * 0.1 / 125e-12)
+    assert far_end_peak(kf, 0.2, TR, 1.0) == pytest.approx(2 * far_end_peak(kf, 0.1, TR, 1.0))
+    assert far_end_peak(kf, 0.1, TR, 1.0, "high_z") == pytest.approx(2 * far_end_peak(kf, 0.1, TR, 1.0))
+    with pytest.raises(ValueError):
+        far_end_peak(kf, 0.1, TR, 1.0, "open")
+
+
+@pytest.mark.parametrize("length_m", [0.002, 0.01, 0.05])
+def test_single_piece_matches_uniform_formulas(length_m):
+    res = piecewise_peaks([0.04], [-2e-10], [length_m], [V], TR, 3.3, waveforms=True)
+    assert res.next_v == pytest.approx(near_end_peak(0.04, length_m, V, TR, 3.3))
+    assert res.fext_v == pytest.approx(far_end_peak(-2e-10, length_m, TR, 3.3))
+    assert np.max(np.abs(res.near_end_v)) == pytest.approx(abs(res.next_v), rel=0.01)
+    assert res.far_end_v.min() == pytest.approx(res.fext_v, rel=1e-9)
+    assert res.weak_coupling
+
+
+def test_equal_pieces_add_up_to_one_run():
+    whole = piecewise_peaks([0.03], [-1e-10], [0.004], [V], TR, 1.0)
+    split = piecewise_peaks([0.03] * 4, [-1e-10] * 4, [0.001] * 4, [V] * 4, TR, 1.0)
+    assert split.next_v == pytest.approx(whole.next_v)
+    assert split.fext_v == pytest.approx(whole.fext_v)
+
+
+def test_pieces_do_not_simply_add_their_peaks():
+    # two saturated pieces far apart: the near-end waveform holds two separate bumps
+    l_long = 4 * saturation_length_m(V, TR)
+    res = piecewise_peaks([0.05, 0.0, 0.05], [0, 0, 0], [l_long, l_long, l_long], [V] * 3, TR, 1.0)
+    assert res.next_v == pytest.approx(0.05)
+
+
+def test_orientation_picks_the_worse_end():
+    # strongly coupled piece close to end B, long weakly coupled lead-in from end A
+    kb, lengths = [0.005, 0.06], [0.1, 0.003]
+    res = piecewise_peaks(kb, [0, 0], lengths, [V, V], TR, 1.0)
+    assert res.worst_orientation == "b"
+    assert res.next_v == pytest.approx(res.next_v_b)
+    # driver at B sees the strong piece first and unsaturated: Kb * 2 TD / T (docs/physics.md §3)
+    assert res.next_v_b == pytest.approx(0.06 * 2 * 0.003 / V / 125e-12 + 0.005, rel=1e-6)
+    assert abs(res.next_v_a) < abs(res.next_v_b)
+
+
+def test_far_end_sum_of_pieces_with_different_speeds():
+    res = piecewise_peaks([0.02, 0.03], [-1e-10, -3e-10], [0.02, 0.01], [1.8e8, 1.5e8], TR, 1.0)
+    assert res.fext_v == pytest.approx((-1e-10 * 0.02 - 3e-10 * 0.01) / 125e-12)
+
+
+def test_high_impedance_receiver_reflects_far_end_noise_to_near_end():
+    matched = piecewise_peaks([0.01], [-4e-10], [0.1], [V], TR, 1.0, waveforms=True)
+    open_end = piecewise_peaks([0.01], [-4e-10], [0.1], [V], TR, 1.0, far_end_receiver="high_z", waveforms=True)
+    assert open_end.fext_v == pytest.approx(2 * matched.fext_v)
+    # the reflected far-end pulse (Kf l dV/dt) outweighs the near-end noise here
+    assert open_end.next_v == pytest.approx(matched.fext_v, rel=1e-6)
+    assert open_end.near_end_v.min() == pytest.approx(matched.fext_v, rel=1e-6)
+
+
+def test_strong_coupling_is_flagged():
+    assert not piecewise_peaks([0.02, 0.15], [0, 0], [0.01, 0.01], [V, V], TR, 1.0).weak_coupling

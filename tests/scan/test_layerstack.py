@@ -1,0 +1,58 @@
+"""Signal-layer environments from a stackup."""
+import numpy as np
+import pytest
+
+from scanner.board import Board, CopperLayer, CopperShapes, Holes, Stackup, StackupLayer, TraceSegments
+from scanner.errors import InputError
+from scanner.layerstack import default_stackup, effective_stackup, layer_environments
+
+
+def _board(kinds):
+    layers = [CopperLayer(f"L{i + 1}", i, "inner", k, "test", None, TraceSegments.empty(), CopperShapes.empty())
+              for i, k in enumerate(kinds)]
+    return Board("t", "t", "test", layers, [], Holes.empty())
+
+
+def _six_layer():
+    S = StackupLayer
+    return Stackup((S("soldermask", "m", 0.02, 3.8), S("copper", "L1", 0.035, None, 0),
+                    S("dielectric", "p1", 0.2, 4.2), S("copper", "L2", 0.035, None, 1),
+                    S("dielectric", "c1", 0.3, 4.5), S("copper", "L3", 0.018, None, 2),
+                    S("dielectric", "p2", 0.25, 4.3), S("copper", "L4", 0.035, None, 3),
+                    S("dielectric", "c2", 0.3, 4.5), S("copper", "L5", 0.035, None, 4),
+                    S("dielectric", "p3", 0.2, 4.2), S("copper", "L6", 0.035, None, 5),
+                    S("soldermask", "m", 0.02, 3.8)), "test")
+
+
+def test_six_layer_environments():
+    board = _board(["signal", "plane", "signal", "plane", "plane", "signal"])
+    envs = layer_environments(board, _six_layer(), {1, 3, 4})
+    top, inner, bottom = envs[0], envs[2], envs[5]
+    assert top.structure == "microstrip" and top.toward_plane == ((0.2, 4.2),) and top.soldermask == (0.02, 3.8)
+    # offset stripline: 0.25 mm to L4 is nearer than 0.3 mm to L2, so L4 is its reference side
+    assert inner.structure == "stripline"
+    assert inner.toward_plane == ((0.25, 4.3),) and inner.away == ((0.3, 4.5),)
+    assert bottom.structure == "microstrip" and bottom.height_mm == pytest.approx(0.2)
+    assert set(envs) == {0, 2, 5}
+
+
+def test_signal_copper_between_trace_and_plane_counts_as_dielectric():
+    board = _board(["signal", "signal", "plane", "signal", "signal", "plane"])
+    envs = layer_environments(board, _six_layer(), {2, 5})
+    # L1 looks down past L2 (signal) to the plane L3: 0.2 + 0.035 (copper as laminate) + 0.3
+    assert envs[0].height_mm == pytest.approx(0.535)
+    assert envs[0].toward_plane[1] == (0.035, 4.2)
+
+
+def test_default_stackup_is_stated_and_matches_thickness():
+    s = default_stackup(12)
+    assert s.source == "default" and len(s.copper()) == 12
+    assert s.total_thickness_mm == pytest.approx(1.6)
+    board = _board(["signal"] * 4)
+    used, warnings = effective_stackup(board, None)
+    assert used.source == "default" and "NO STACKUP" in warnings[0]
+
+
+def test_copper_count_mismatch_is_an_input_error():
+    with pytest.raises(InputError):
+        effective_stackup(_board(["signal"] * 4), _six_layer())
