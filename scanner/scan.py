@@ -19,7 +19,7 @@ from scanner.finder import find_coupled_pieces
 from scanner.layerstack import effective_stackup, layer_environments
 from scanner.rules import Rules, assign_roles, NetRoles
 from scanner.runs import build_runs, CoupledRuns
-from scanner.score import Hotspot, ScanResult, VictimTotal, STATUS_ORDER, status_for
+from scanner.score import Hotspot, PieceCoefficients, ScanResult, VictimTotal, STATUS_ORDER, status_for
 
 #: search distance derived from the stackup: this many times the largest trace-to-plane height
 SEARCH_HEIGHTS = 4.0
@@ -87,6 +87,7 @@ def run_scan(board: Board, rules: Rules | None = None, progress: Progress | None
                   "differential_aggressor": rules.scan.differential_aggressor,
                   "cross_section_solves": lookup.solve_count},
         hotspots=hotspots, victims=victims, warnings=warnings, runs=runs,
+        piece_coefficients=PieceCoefficients(kb, kf, velocity),
         summary=_summary(hotspots, victims, runs, keep),
     )
 

@@ -88,6 +88,15 @@ class VictimTotal:
         return asdict(self)
 
 
+@dataclass(frozen=True)
+class PieceCoefficients:
+    """Per coupled piece: backward coefficient, forward coefficient (s/m), velocity (m/s)."""
+
+    kb: object
+    kf_s_per_m: object
+    velocity_m_per_s: object
+
+
 @dataclass
 class ScanResult:
     """Everything a report needs; ``to_dict`` is report.json."""
@@ -99,7 +108,8 @@ class ScanResult:
     hotspots: list[Hotspot]
     victims: list[VictimTotal]
     warnings: list[str] = field(default_factory=list)
-    runs: object = None  # scanner.runs.CoupledRuns, for overlays
+    runs: object = None  # scanner.runs.CoupledRuns, for overlays and waveforms
+    piece_coefficients: object = None  # PieceCoefficients aligned with runs.pieces
     summary: dict = field(default_factory=dict)
 
     @property

@@ -42,4 +42,5 @@ def _load_folder(root: Path, board_file: Path | None, where: str, prefix: str) -
     importer = choose(discover(), files, where)
     board = importer.load(root, files, board_file=board_file)
     board.source = where
+    board.name = Path(where).stem if Path(where).suffix.lower() == ".zip" else Path(where).name
     return board

@@ -17,6 +17,15 @@ QUOTED_KINDS = 3
 
 _LOCATION = re.compile(r'^\S*?:(\d+)(?: "[^"]*")?:\s*')
 
+#: gerbonara messages restated in plain terms (matched on their opening words)
+_RESTATED = {
+    "Deprecated G74 multi-quadant mode arc found": "arc in deprecated G74 single-quadrant mode",
+    "Coordinate statement without explicit operation code":
+        "coordinate without D01/D02/D03; the previous operation repeated (deprecated)",
+    "Arc is missing I value": "arc without I offset; taken as 0",
+    "Arc is missing J value": "arc without J offset; taken as 0",
+}
+
 
 @dataclass
 class FileWarnings:
@@ -33,6 +42,10 @@ class FileWarnings:
             line = line or int(match.group(1))
             text = text[match.end():]
         text = " ".join(text.split())
+        for opening, plain in _RESTATED.items():
+            if text.startswith(opening):
+                text = plain
+                break
         self.counts[text] += 1
         self.first_line.setdefault(text, line)
 

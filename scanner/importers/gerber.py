@@ -1,6 +1,9 @@
 """The Gerber importer: copper Gerber (X2, or X1 with an IPC-D-356 netlist), Excellon drills, job file."""
 from __future__ import annotations
 
+import os
+from concurrent.futures import ProcessPoolExecutor
+from multiprocessing import get_context
 from pathlib import Path
 
 import numpy as np
@@ -42,7 +45,7 @@ class GerberImporter:
         if not copper:
             raise InputError("no copper layers found (no X2 .FileFunction, job file or recognisable file names; "
                              f"list them in {BOARD_FILE_NAME})", path=where)
-        artworks = [read_copper(c.source.path, c.source.name) for c in copper]
+        artworks = read_copper_files([(c.source.path, c.source.name) for c in copper])
         warnings = []
         net_names = sorted({n for a in artworks for n in np.concatenate([a.segment_net, a.shape_net]) if n})
         net_index = {n: i for i, n in enumerate(net_names)}
@@ -75,6 +78,40 @@ class GerberImporter:
                                   + f" (override with {BOARD_FILE_NAME})")
         assign_nets(board)
         return board
+
+
+#: copper files are parsed in worker processes when a board has at least this many bytes of them
+PARALLEL_MIN_BYTES = 1_000_000
+
+
+def import_workers() -> int:
+    """Worker processes for parsing: ``NEARFAR_IMPORT_WORKERS`` if set, else up to 2 (parsing is CPU-bound)."""
+    value = os.environ.get("NEARFAR_IMPORT_WORKERS")
+    if value is not None and value.strip().isdigit():
+        return max(1, int(value))
+    return max(1, min(2, os.cpu_count() or 1))
+
+
+def _read_copper_job(job: tuple[Path, str]):
+    try:
+        return read_copper(*job)
+    except InputError as exc:  # rebuilt in the parent: keeps file and line across the process boundary
+        return ("input-error", exc.message, exc.path, exc.line)
+
+
+def read_copper_files(jobs: list[tuple[Path, str]]) -> list[CopperArtwork]:
+    """Read copper files, in parallel for big boards; results in the order given."""
+    workers = min(import_workers(), len(jobs))
+    if workers < 2 or sum(path.stat().st_size for path, _ in jobs) < PARALLEL_MIN_BYTES:
+        return [read_copper(*job) for job in jobs]
+    biggest_first = sorted(range(len(jobs)), key=lambda i: -jobs[i][0].stat().st_size)
+    with ProcessPoolExecutor(max_workers=workers, mp_context=get_context("fork")) as pool:
+        done = dict(zip(biggest_first, pool.map(_read_copper_job, [jobs[i] for i in biggest_first])))
+    results = [done[i] for i in range(len(jobs))]
+    for r in results:
+        if isinstance(r, tuple):
+            raise InputError(r[1], path=r[2], line=r[3])
+    return results
 
 
 def _board_file(files: list[SourceFile], explicit: Path | None) -> BoardFile | None:

@@ -41,7 +41,16 @@ def _x2_hint(function: tuple[str, ...] | None) -> str | None:
     return None
 
 
-def _layer_number(function: tuple[str, ...], name: str, origin: str) -> int:
+def _with_hint(src: SourceFile, side: str, job_functions: dict) -> CopperFile:
+    """A copper file with the plane/signal hint from its X2 attributes, else from the job file."""
+    if (hint := _x2_hint(src.file_function)) is not None:
+        return CopperFile(src, side, hint, "gerber-x2")
+    if (hint := _x2_hint(job_functions.get(src.path.name))) is not None:
+        return CopperFile(src, side, hint, "job-file")
+    return CopperFile(src, side, None, None)
+
+
+def _layer_number(function: tuple[str, ...], name: str) -> int:
     if len(function) < 2 or not re.fullmatch(r"L\d+", function[1]):
         raise InputError(f"copper .FileFunction {','.join(function)!r} has no L<n> layer number", path=name)
     return int(function[1][1:])
@@ -82,29 +91,25 @@ def copper_files(gerbers: list[SourceFile], board_layers: list[str] | None, boar
             raise InputError(f"'layers' names file(s) not found as Gerber in {where}: {', '.join(missing)}",
                              path=board_file_name)
         chosen = [by_name[n] for n in board_layers]
-        return [CopperFile(s, _side(i, len(chosen)), _x2_hint(s.file_function) or _x2_hint(job_functions.get(s.path.name)),
-                           "gerber-x2" if _x2_hint(s.file_function) else ("job-file" if _x2_hint(job_functions.get(s.path.name)) else None))
-                for i, s in enumerate(chosen)], "board-file"
+        return [_with_hint(s, _side(i, len(chosen)), job_functions) for i, s in enumerate(chosen)], "board-file"
 
     x2 = [s for s in gerbers if s.is_copper_x2]
     if x2:
-        keyed = sorted(((_layer_number(s.file_function, s.name, "x2"), s) for s in x2), key=lambda t: t[0])
+        keyed = sorted(((_layer_number(s.file_function, s.name), s) for s in x2), key=lambda t: t[0])
         _no_duplicates([(k, s.name) for k, s in keyed], "X2 .FileFunction", where)
-        return [CopperFile(s, _side(i, len(keyed)), _x2_hint(s.file_function), "gerber-x2" if _x2_hint(s.file_function) else None)
-                for i, (_, s) in enumerate(keyed)], "gerber-x2"
+        return [_with_hint(s, _side(i, len(keyed)), job_functions) for i, (_, s) in enumerate(keyed)], "gerber-x2"
 
     job = [(job_functions[s.path.name], s) for s in gerbers
            if job_functions.get(s.path.name, ("",))[0] == "Copper"]
     if job:
-        keyed = sorted(((_layer_number(f, s.name, "job"), f, s) for f, s in job), key=lambda t: t[0])
+        keyed = sorted(((_layer_number(f, s.name), f, s) for f, s in job), key=lambda t: t[0])
         _no_duplicates([(k, s.name) for k, _, s in keyed], "job file FilesAttributes", where)
-        return [CopperFile(s, _side(i, len(keyed)), _x2_hint(f), "job-file" if _x2_hint(f) else None)
-                for i, (_, f, s) in enumerate(keyed)], "job-file"
+        return [_with_hint(s, _side(i, len(keyed)), job_functions) for i, (_, f, s) in enumerate(keyed)], "job-file"
 
     guessed = [(key, s) for s in gerbers if (key := guess_from_name(s.path.name)) is not None]
     guessed.sort(key=lambda t: (t[0], t[1].name))
     _no_duplicates([(k, s.name) for k, s in guessed], "file names", where)
-    return [CopperFile(s, _side(i, len(guessed)), None, None) for i, (_, s) in enumerate(guessed)], "file-names"
+    return [_with_hint(s, _side(i, len(guessed)), job_functions) for i, (_, s) in enumerate(guessed)], "file-names"
 
 
 def _no_duplicates(keyed: list[tuple], evidence: str, where: str) -> None:

@@ -57,34 +57,44 @@ def _layers(dielectrics) -> list[tuple[float, float]]:
     return [(d.thickness_mm, d.er) if hasattr(d, "thickness_mm") else (float(d[0]), float(d[1])) for d in dielectrics]
 
 
-class _Interp:
-    """Monotone interpolation of a coefficient over spacing, in log-log space where the sign allows.
+#: backward coefficients below this are numerical noise and are held at it for log interpolation
+KB_FLOOR = 1e-12
 
-    Outside the table the last two points are extended as a power law (for
-    exponentially decaying stripline coupling this overestimates: conservative).
+
+class _LogLogCurve:
+    """Monotone (PCHIP) interpolation of a positive quantity in log-log space.
+
+    Outside the table the end segments continue as power laws; for stripline
+    coupling, which decays exponentially, that overestimates: the safe side.
     """
 
     def __init__(self, spacing_mm: np.ndarray, values: np.ndarray):
-        self.log_s = np.log(spacing_mm)
-        sign = np.sign(values)
-        self.sign = float(sign[0]) if np.all(sign == sign[0]) and sign[0] != 0 else 0.0
-        self.logarithmic = self.sign != 0
-        y = np.log(np.abs(values)) if self.logarithmic else values
-        self.y = y
-        self.curve = PchipInterpolator(self.log_s, y, extrapolate=False) if len(y) > 1 else None
+        self.x = np.log(spacing_mm)
+        self.y = np.log(np.maximum(values, KB_FLOOR))
+        self.curve = PchipInterpolator(self.x, self.y, extrapolate=False) if len(self.x) > 1 else None
 
     def __call__(self, spacing_mm) -> np.ndarray:
         x = np.log(np.asarray(spacing_mm, dtype=float))
         if self.curve is None:
-            out = np.full(x.shape, self.y[0])
-        else:
-            out = self.curve(x)
-            lo, hi = x < self.log_s[0], x > self.log_s[-1]
-            slope_lo = (self.y[1] - self.y[0]) / (self.log_s[1] - self.log_s[0])
-            slope_hi = (self.y[-1] - self.y[-2]) / (self.log_s[-1] - self.log_s[-2])
-            out = np.where(lo, self.y[0] + slope_lo * (x - self.log_s[0]), out)
-            out = np.where(hi, self.y[-1] + slope_hi * (x - self.log_s[-1]), out)
-        return self.sign * np.exp(out) if self.logarithmic else out
+            return np.exp(np.full(x.shape, self.y[0]))
+        slope_lo = (self.y[1] - self.y[0]) / (self.x[1] - self.x[0])
+        slope_hi = (self.y[-1] - self.y[-2]) / (self.x[-1] - self.x[-2])
+        y = np.where(x < self.x[0], self.y[0] + slope_lo * (x - self.x[0]),
+                     np.where(x > self.x[-1], self.y[-1] + slope_hi * (x - self.x[-1]), self.curve(x)))
+        return np.exp(y)
+
+
+class _RatioCurve:
+    """PCHIP over log spacing of a bounded ratio, held constant beyond the table."""
+
+    def __init__(self, spacing_mm: np.ndarray, ratio: np.ndarray):
+        self.x = np.log(spacing_mm)
+        self.ratio = ratio
+        self.curve = PchipInterpolator(self.x, ratio, extrapolate=False) if len(self.x) > 1 else None
+
+    def __call__(self, spacing_mm) -> np.ndarray:
+        x = np.clip(np.log(np.asarray(spacing_mm, dtype=float)), self.x[0], self.x[-1])
+        return self.curve(x) if self.curve is not None else np.full(x.shape, self.ratio[0])
 
 
 @dataclass(frozen=True)
@@ -92,7 +102,9 @@ class CouplingTable:
     """Coefficients for two equal traces on one layer, solved at a few spacings and interpolated.
 
     Spacing is the edge-to-edge gap in mm. ``velocity_m_per_s``, ``z0_ohm`` and
-    ``eps_eff`` are the single, isolated trace's.
+    ``eps_eff`` are the single, isolated trace's. Kb is interpolated in log-log
+    space; Kf through the smooth, bounded ratio Kf v / Kb, which keeps its
+    sign changes and numerical noise at wide spacing harmless.
     """
 
     spacings_mm: np.ndarray
@@ -101,15 +113,15 @@ class CouplingTable:
     velocity_m_per_s: float
     z0_ohm: float
     eps_eff: float
-    _kb: _Interp = field(repr=False, compare=False)
-    _kf: _Interp = field(repr=False, compare=False)
+    _kb: _LogLogCurve = field(repr=False, compare=False)
+    _kf_ratio: _RatioCurve = field(repr=False, compare=False)
 
     def kb(self, spacing_mm) -> np.ndarray:
         return self._kb(spacing_mm)
 
     def kf(self, spacing_mm) -> np.ndarray:
         """Forward coefficient, s/m."""
-        return self._kf(spacing_mm)
+        return self._kf_ratio(spacing_mm) * self._kb(spacing_mm) / self.velocity_m_per_s
 
     @classmethod
     def for_layer(cls, dielectrics_above: Sequence, dielectrics_below: Sequence, planes: str,
@@ -160,8 +172,9 @@ def _table(below, above, planes, width_mm, thickness_mm, mask, spacings, top_wid
     s_arr, kb_arr, kf_arr = np.array(spacings), np.array(kb), np.array(kf)
     if _homogeneous(below, above, planes, mask):
         kf_arr = np.zeros_like(kf_arr)
+    ratio = kf_arr * single.velocity() / np.maximum(kb_arr, KB_FLOOR)
     return CouplingTable(s_arr, kb_arr, kf_arr, single.velocity(), single.z0(), single.eps_eff(),
-                         _Interp(s_arr, kb_arr), _Interp(s_arr, kf_arr))
+                         _LogLogCurve(s_arr, kb_arr), _RatioCurve(s_arr, ratio))
 
 
 def _homogeneous(below, above, planes, mask) -> bool:

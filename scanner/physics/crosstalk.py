@@ -125,6 +125,18 @@ class VictimNoise:
     far_end_v: np.ndarray | None = None
 
 
+def near_end_waveform(time_s, kb, kf, length_m, velocity_m_per_s, rise_time_s, swing_v, far_end_receiver="matched"):
+    """Near-end victim voltage at ``time_s`` with the driver at the first piece (t = 0: edge starts)."""
+    run = _Run.of(kb, kf, length_m, velocity_m_per_s)
+    return swing_v * run.near_end(time_s, float(ramp_duration_s(rise_time_s)), _receiver_gain(far_end_receiver))
+
+
+def far_end_waveform(time_s, kb, kf, length_m, velocity_m_per_s, rise_time_s, swing_v, far_end_receiver="matched"):
+    """Far-end victim voltage at ``time_s`` (the same for either driver position)."""
+    run = _Run.of(kb, kf, length_m, velocity_m_per_s)
+    return swing_v * run.far_end(time_s, float(ramp_duration_s(rise_time_s)), _receiver_gain(far_end_receiver))
+
+
 def piecewise_peaks(kb, kf, length_m, velocity_m_per_s, rise_time_s, swing_v, far_end_receiver="matched",
                     waveforms: bool = False, time_s: np.ndarray | None = None) -> VictimNoise:
     """NEXT and FEXT peaks for a run made of pieces (arrays, one entry per piece, from end A to end B).

@@ -18,11 +18,10 @@ def render(result: ScanResult, top: int = 20) -> str:
              f"search distance {s['search_distance_mm']} mm ({s['search_distance_source']}), "
              f"runs shorter than {s['min_coupled_length_mm']} mm ignored, "
              f"parallel within {s['angle_tolerance_deg']}°",
-             "classes: " + "; ".join(
-                 f"{c['name']} ({', '.join(c['patterns'])}): tr {c['rise_time_ns']} ns, {c['swing_v']} V, "
-                 f"budgets NEXT {_budget(c, 'next')} FEXT {_budget(c, 'fext')}, {c['termination']}"
-                 for c in result.rules["classes"] + [result.rules["default_class"]]),
-             ]
+             "net classes (aggressor edge; victim budgets and termination):"]
+    lines += [f"  {c['name']:<14} {', '.join(c['patterns'])[:40]:<40} tr {c['rise_time_ns']:g} ns, {c['swing_v']:g} V; "
+              f"NEXT ≤ {_budget(c, 'next')}, FEXT ≤ {_budget(c, 'fext')}; {c['termination']}"
+              for c in result.rules["classes"] + [result.rules["default_class"]]]
     for w in result.warnings[:8]:
         lines.append(f"warning: {w}")
     if len(result.warnings) > 8:
@@ -38,7 +37,7 @@ def render(result: ScanResult, top: int = 20) -> str:
         if fix.get("max_length_mm") is not None:
             fix_text += (" or " if fix_text else "") + f"len≤{fix['max_length_mm']:.3g}"
         rows.append((str(h.rank), STATUS_MARK[h.status], _trim(h.victim, 18), _trim(h.aggressor, 18),
-                     _trim(h.layer, 10), f"{h.coupled_length_mm:.1f}", f"{h.min_spacing_mm:.3f}",
+                     _trim("+".join(h.layers), 12), f"{h.coupled_length_mm:.1f}", f"{h.min_spacing_mm:.3f}",
                      f"{h.next_mv:.0f}", f"{h.fext_mv:.0f}", f"{100 * h.budget_used:.0f}%",
                      f"{h.x_mm:.2f},{h.y_mm:.2f}", fix_text))
     if rows:

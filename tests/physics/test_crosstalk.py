@@ -3,7 +3,7 @@ import numpy as np
 import pytest
 
 from scanner.physics import far_end_peak, near_end_peak, piecewise_peaks, saturation_length_m
-from scanner.physics.crosstalk import ramp_duration_s
+from scanner.physics.crosstalk import far_end_waveform, near_end_waveform, ramp_duration_s
 
 V = 1.5e8  # m/s, about 15 cm/ns: stripline in er 4 (common practice)
 TR = 100e-12
@@ -55,15 +55,36 @@ def test_pieces_do_not_simply_add_their_peaks():
     assert res.next_v == pytest.approx(0.05)
 
 
-def test_orientation_picks_the_worse_end():
-    # strongly coupled piece close to end B, long weakly coupled lead-in from end A
-    kb, lengths = [0.005, 0.06], [0.1, 0.003]
-    res = piecewise_peaks(kb, [0, 0], lengths, [V, V], TR, 1.0)
-    assert res.worst_orientation == "b"
-    assert res.next_v == pytest.approx(res.next_v_b)
-    # driver at B sees the strong piece first and unsaturated: Kb * 2 TD / T (docs/physics.md §3)
-    assert res.next_v_b == pytest.approx(0.06 * 2 * 0.003 / V / 125e-12 + 0.005, rel=1e-6)
-    assert abs(res.next_v_a) < abs(res.next_v_b)
+def test_matched_near_end_peak_does_not_depend_on_orientation():
+    # each piece adds a symmetric trapezoid; reversing the run mirrors the whole waveform in time
+    rng = np.random.default_rng(7)
+    for _ in range(20):
+        n = rng.integers(1, 6)
+        res = piecewise_peaks(rng.uniform(-0.01, 0.06, n), rng.uniform(-3e-10, 0, n), rng.uniform(1e-4, 0.05, n),
+                              rng.uniform(1.4e8, 1.9e8, n), TR, 1.0)
+        assert res.next_v_a == pytest.approx(res.next_v_b, rel=1e-9, abs=1e-15)
+
+
+@pytest.mark.parametrize("kf_lead", [-1e-11, -4e-11])
+def test_breakpoint_search_finds_the_dense_grid_extreme(kf_lead):
+    # high-impedance receiver: the reflected far-end pulse joins the near-end waveform
+    pieces = dict(kb=[0.005, 0.06], kf=[kf_lead, -3e-10], length_m=[0.1, 0.003], velocity_m_per_s=[V, V])
+    edge = dict(rise_time_s=TR, swing_v=1.0, far_end_receiver="high_z")
+    res = piecewise_peaks(**pieces, **edge)
+    assert abs(res.next_v) == max(abs(res.next_v_a), abs(res.next_v_b))
+    t = np.linspace(0, 2e-9, 400_001)
+    reverse = {k: v[::-1] for k, v in pieces.items()}
+    for run, expected in ((pieces, res.next_v_a), (reverse, res.next_v_b)):
+        wave = near_end_waveform(t, **run, **edge)
+        assert wave[np.argmax(np.abs(wave))] == pytest.approx(expected, rel=1e-3)
+
+
+def test_far_end_waveform_is_the_scaled_edge_derivative():
+    t = np.linspace(0, 1e-9, 10_001)
+    wave = far_end_waveform(t, [0.02], [-2e-10], [0.03], [V], TR, 1.0)
+    inside = (t > 0.2e-9 + 1e-12) & (t < 0.2e-9 + 125e-12 - 1e-12)
+    assert np.allclose(wave[inside], -2e-10 * 0.03 / 125e-12)
+    assert np.all(wave[(t < 0.2e-9 - 1e-12) | (t > 0.2e-9 + 125e-12 + 1e-12)] == 0)
 
 
 def test_far_end_sum_of_pieces_with_different_speeds():
@@ -77,7 +98,7 @@ def test_high_impedance_receiver_reflects_far_end_noise_to_near_end():
     assert open_end.fext_v == pytest.approx(2 * matched.fext_v)
     # the reflected far-end pulse (Kf l dV/dt) outweighs the near-end noise here
     assert open_end.next_v == pytest.approx(matched.fext_v, rel=1e-6)
-    assert open_end.near_end_v.min() == pytest.approx(matched.fext_v, rel=1e-6)
+    assert open_end.near_end_v.min() == pytest.approx(matched.fext_v, rel=1e-3)
 
 
 def test_strong_coupling_is_flagged():
