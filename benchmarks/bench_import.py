@@ -3,11 +3,15 @@
 
 Usage: ``python benchmarks/bench_import.py [BOARD_FOLDER] [--repeat N]``
 (default board: ../shared/real-boards/open-sbc-12layer beside the repository).
-Prints the best of N runs for each and the ratio; results go to docs/performance.md by hand.
+Runs are interleaved (one of each per round) so that load from other jobs on a shared machine
+falls on all of them alike; the best of N rounds is printed with the ratios. nearfar is timed
+twice: with its default parse workers and with ``NEARFAR_IMPORT_WORKERS=1`` (one process,
+like gerbonara). Results go to docs/performance.md by hand.
 """
 from __future__ import annotations
 
 import argparse
+import os
 import time
 import warnings
 from pathlib import Path
@@ -34,13 +38,12 @@ def gerbonara_parse(folder: Path, warning_action: str) -> int:
     return len(caught)
 
 
-def best_of(repeat: int, fn) -> tuple[float, object]:
-    best, value = float("inf"), None
-    for _ in range(repeat):
-        started = time.perf_counter()
-        value = fn()
-        best = min(best, time.perf_counter() - started)
-    return best, value
+def load_serial(folder: Path):
+    os.environ["NEARFAR_IMPORT_WORKERS"] = "1"
+    try:
+        return scanner.load_board(folder)
+    finally:
+        del os.environ["NEARFAR_IMPORT_WORKERS"]
 
 
 def main() -> None:
@@ -49,17 +52,27 @@ def main() -> None:
     parser.add_argument("--repeat", type=int, default=3)
     args = parser.parse_args()
     folder = args.board.resolve()
+    contenders = {
+        "gerbonara parse, warnings recorded": lambda: gerbonara_parse(folder, "always"),
+        "gerbonara parse, warnings ignored": lambda: gerbonara_parse(folder, "ignore"),
+        "nearfar load_board, default workers": lambda: scanner.load_board(folder),
+        "nearfar load_board, one process": lambda: load_serial(folder),
+    }
+    best = {name: float("inf") for name in contenders}
+    values = {}
+    for _ in range(args.repeat):
+        for name, fn in contenders.items():
+            started = time.perf_counter()
+            values[name] = fn()
+            best[name] = min(best[name], time.perf_counter() - started)
 
-    t_record, n_warnings = best_of(args.repeat, lambda: gerbonara_parse(folder, "always"))
-    t_ignore, _ = best_of(args.repeat, lambda: gerbonara_parse(folder, "ignore"))
-    t_ours, board = best_of(args.repeat, lambda: scanner.load_board(folder))
-
+    board = values["nearfar load_board, default workers"]
     print(f"board: {folder.name}: {len(board.layers)} copper layers, {board.segment_count} segments, "
-          f"{sum(len(l.shapes) for l in board.layers)} shapes, {len(board.holes)} holes, {len(board.nets)} nets")
-    print(f"gerbonara parse, warnings recorded ({n_warnings}): {t_record:7.2f} s")
-    print(f"gerbonara parse, warnings ignored:                {t_ignore:7.2f} s")
-    print(f"nearfar load_board (parse + model + net map):     {t_ours:7.2f} s")
-    print(f"ratio to gerbonara (recorded / ignored):          {t_ours / t_record:7.2f} / {t_ours / t_ignore:.2f}")
+          f"{sum(len(l.shapes) for l in board.layers)} shapes, {len(board.holes)} holes, {len(board.nets)} nets; "
+          f"{values['gerbonara parse, warnings recorded']} gerbonara warnings; best of {args.repeat}")
+    base = best["gerbonara parse, warnings recorded"]
+    for name, seconds in best.items():
+        print(f"{name:<40} {seconds:7.2f} s   {seconds / base:5.2f} x")
 
 
 if __name__ == "__main__":

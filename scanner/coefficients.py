@@ -15,9 +15,11 @@ from scanner.layerstack import LayerEnvironment
 from scanner.physics import CouplingTable
 
 WIDTH_STEP = 1.05
-#: spacing grid of each table, as a factor range around the scan's search distance
+#: spacing grid of each table: from TABLE_MIN_SPACING_MM to the larger of the search distance and
+#: TABLE_REACH_HEIGHTS trace-to-plane heights (so fix guidance can look beyond the search distance)
 TABLE_MIN_SPACING_MM = 0.02
-TABLE_POINTS = 9
+TABLE_REACH_HEIGHTS = 10.0
+TABLE_POINTS = 10
 
 
 class CouplingLookup:
@@ -25,7 +27,8 @@ class CouplingLookup:
 
     def __init__(self, envs: dict[int, LayerEnvironment], search_distance_mm: float):
         self.envs = envs
-        self.max_spacing_mm = max(search_distance_mm, TABLE_MIN_SPACING_MM * 4) * 1.05
+        self.max_spacing_mm = {i: max(search_distance_mm * 1.05, TABLE_REACH_HEIGHTS * e.height_mm)
+                               for i, e in envs.items()}
         self._tables: dict[tuple[int, int], CouplingTable] = {}
 
     @property
@@ -37,7 +40,7 @@ class CouplingLookup:
         table = self._tables.get(key)
         if table is None:
             env = self.envs[layer]
-            table = self._tables[key] = _layer_table(env, WIDTH_STEP ** key[1], self.max_spacing_mm)
+            table = self._tables[key] = _layer_table(env, WIDTH_STEP ** key[1], self.max_spacing_mm[key[0]])
         return table
 
     def coefficients(self, layer: np.ndarray, width_mm: np.ndarray, spacing_mm: np.ndarray):
@@ -52,7 +55,7 @@ class CouplingLookup:
             rows = np.flatnonzero(inverse == g)
             lay = int(k >> 32)
             table = self.table(lay, float(WIDTH_STEP ** width_class[rows[0]]))
-            s = np.clip(spacing_mm[rows], TABLE_MIN_SPACING_MM, self.max_spacing_mm)
+            s = np.clip(spacing_mm[rows], TABLE_MIN_SPACING_MM, self.max_spacing_mm[lay])
             kb[rows] = table.kb(s)
             kf[rows] = table.kf(s)
             velocity[rows] = table.velocity_m_per_s

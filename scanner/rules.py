@@ -61,6 +61,44 @@ DEFAULT_CLASS = NetClass(name="default", patterns=("*",))
 
 
 @dataclass(frozen=True)
+class ClassPairRule:
+    """A limit for one aggressor class coupling into one victim class.
+
+    Noise budgets here replace the victim class's own for that aggressor class.
+    A geometric limit (``max_parallel_mm`` of coupled length at edge spacings up
+    to ``within_spacing_mm``) is checked on the coupled runs directly, for
+    couplings the edge-rate model does not describe (slow, high-current copper
+    beside a sensing line, whose coupling is mainly magnetic).
+    """
+
+    aggressor_class: str
+    victim_class: str
+    next_budget_pct: float | None = None
+    fext_budget_pct: float | None = None
+    next_budget_mv: float | None = None
+    fext_budget_mv: float | None = None
+    max_parallel_mm: float | None = None
+    within_spacing_mm: float | None = None
+
+    @property
+    def has_budget(self) -> bool:
+        return any(v is not None for v in (self.next_budget_pct, self.fext_budget_pct,
+                                            self.next_budget_mv, self.fext_budget_mv))
+
+    @property
+    def has_geometry(self) -> bool:
+        return self.max_parallel_mm is not None
+
+    def budgets_v(self, victim: "NetClass") -> tuple[float, float]:
+        """(NEXT, FEXT) budgets in volts for a victim of ``victim`` class; unset ones fall back to the class."""
+        next_v = (_budget_v(self.next_budget_mv, self.next_budget_pct, victim.swing_v)
+                  if self.next_budget_mv is not None or self.next_budget_pct is not None else victim.next_budget_v())
+        fext_v = (_budget_v(self.fext_budget_mv, self.fext_budget_pct, victim.swing_v)
+                  if self.fext_budget_mv is not None or self.fext_budget_pct is not None else victim.fext_budget_v())
+        return next_v, fext_v
+
+
+@dataclass(frozen=True)
 class ScanSettings:
     search_distance_mm: float | None = None  # None: derived from the stackup
     min_coupled_length_mm: float = 2.0
@@ -79,7 +117,14 @@ class Rules:
     scan: ScanSettings = field(default_factory=ScanSettings)
     stackup: Stackup | None = None
     planes: tuple[str, ...] = ()  # copper layer names forced to plane
+    class_pairs: tuple[ClassPairRule, ...] = ()
     source: str = "defaults"
+
+    def pair_rule(self, aggressor_class: str, victim_class: str) -> ClassPairRule | None:
+        for rule in self.class_pairs:
+            if rule.aggressor_class == aggressor_class and rule.victim_class == victim_class:
+                return rule
+        return None
 
     def class_of(self, net_name: str) -> NetClass:
         """The first class (in file order) whose pattern matches; the default class otherwise."""
@@ -100,6 +145,7 @@ class Rules:
             "power_patterns": list(self.power_patterns),
             "diff_pairs": [list(p) for p in self.diff_pairs],
             "planes": list(self.planes),
+            "class_pairs": [asdict(r) for r in self.class_pairs],
         }
         if self.stackup is not None:
             d["stackup"] = [asdict(layer) for layer in self.stackup.layers]
@@ -195,7 +241,11 @@ _SCAN_KEYS = {
     "warn_fraction": float, "budget_basis": str, "differential_aggressor": str, "auto_diff_pairs": bool,
 }
 _STACK_KEYS = {"kind": str, "name": str, "thickness_mm": float, "epsilon_r": float}
-_TOP_KEYS = {"scan", "class", "power", "diff_pair", "stackup", "planes"}
+_PAIR_KEYS = {
+    "aggressor_class": str, "victim_class": str, "next_budget_pct": float, "fext_budget_pct": float,
+    "next_budget_mv": float, "fext_budget_mv": float, "max_parallel_mm": float, "within_spacing_mm": float,
+}
+_TOP_KEYS = {"scan", "class", "power", "diff_pair", "stackup", "planes", "class_pair"}
 
 
 def load_rules(path: str | Path | None) -> Rules:
@@ -299,8 +349,40 @@ def parse_rules(doc: dict, source: str) -> Rules:
     if "stackup" in doc:
         stackup = _parse_stackup(doc["stackup"], bad)
 
+    class_pairs = _parse_class_pairs(doc.get("class_pair", []), set(names) | {DEFAULT_CLASS.name}, bad)
+
     return Rules(classes=tuple(classes), power_patterns=power_patterns, diff_pairs=tuple(pairs), scan=scan,
-                 stackup=stackup, planes=tuple(planes), source=source)
+                 stackup=stackup, planes=tuple(planes), class_pairs=class_pairs, source=source)
+
+
+def _parse_class_pairs(raw, class_names: set[str], bad) -> tuple[ClassPairRule, ...]:
+    if not isinstance(raw, list):
+        raise bad("[[class_pair]] must be an array of tables")
+    out = []
+    seen = set()
+    for i, item in enumerate(raw):
+        where = f"[[class_pair]] #{i + 1}"
+        kw = _typed(item, _PAIR_KEYS, where, bad)
+        for key in ("aggressor_class", "victim_class"):
+            if key not in kw:
+                raise bad(f"{where} needs '{key}'")
+            if kw[key] not in class_names:
+                raise bad(f"{where} {key} '{kw[key]}' is not a class name ({', '.join(sorted(class_names))})")
+        for key in ("next_budget_pct", "fext_budget_pct", "next_budget_mv", "fext_budget_mv",
+                    "max_parallel_mm", "within_spacing_mm"):
+            if key in kw and not kw[key] > 0:
+                raise bad(f"{where} {key} must be positive")
+        if ("max_parallel_mm" in kw) != ("within_spacing_mm" in kw):
+            raise bad(f"{where} a geometric limit needs both max_parallel_mm and within_spacing_mm")
+        rule = ClassPairRule(**kw)
+        if not rule.has_budget and not rule.has_geometry:
+            raise bad(f"{where} gives neither a noise budget nor a geometric limit")
+        key = (rule.aggressor_class, rule.victim_class)
+        if key in seen:
+            raise bad(f"{where} repeats the pair {key[0]} -> {key[1]}")
+        seen.add(key)
+        out.append(rule)
+    return tuple(out)
 
 
 def _parse_stackup(raw, bad) -> Stackup:

@@ -12,12 +12,14 @@ from typing import Callable
 
 import numpy as np
 
-from scanner.batch_peaks import run_peaks
 from scanner.board import Board
 from scanner.coefficients import CouplingLookup
 from scanner.finder import find_coupled_pieces
+from scanner.fixes import fix_guidance
+from scanner.geometric import check_geometric_limits
 from scanner.layerstack import effective_stackup, layer_environments
-from scanner.rules import Rules, assign_roles, NetRoles
+from scanner.directed import DirectedRuns, directed_noise, directed_runs
+from scanner.rules import NetRoles, Rules, assign_roles
 from scanner.runs import build_runs, CoupledRuns
 from scanner.score import Hotspot, PieceCoefficients, ScanResult, VictimTotal, STATUS_ORDER, status_for
 
@@ -28,8 +30,6 @@ SEARCH_LIMITS_MM = (0.25, 2.0)
 RUN_GAP_MM = 5.0
 #: smallest edge spacing used for coefficients (touching copper is a netting fault, not crosstalk)
 MIN_SPACING_MM = 0.02
-#: a 10-90 % rise time is 80 % of the linear ramp's full duration
-RAMP_PER_RISE = 1 / 0.8
 STRONG_KB = 0.1
 
 Progress = Callable[[str], None]
@@ -51,6 +51,7 @@ def run_scan(board: Board, rules: Rules | None = None, progress: Progress | None
     plane_nets = _plane_nets(board, plane_layers)
     roles = assign_roles(board.nets, rules, plane_nets)
     search_mm = rules.scan.search_distance_mm or _derived_search_mm(envs)
+    search_mm = max([search_mm] + [r.within_spacing_mm for r in rules.class_pairs if r.has_geometry])
 
     say("finding coupled runs")
     layers = {i: board.layers[i].segments for i in envs}
@@ -66,7 +67,10 @@ def run_scan(board: Board, rules: Rules | None = None, progress: Progress | None
                                            np.maximum(p.spacing_mean_mm, MIN_SPACING_MM))
 
     say("scoring")
-    hotspots = _score_runs(board, rules, roles, envs, runs, keep, kb, kf, velocity)
+    directed = directed_runs(rules, roles, runs, keep)
+    hotspots = _score_runs(board, rules, roles, envs, runs, directed, kb, kf, velocity)
+    hotspots = _with_fixes(hotspots, directed, runs, lookup, board)
+    geometric = check_geometric_limits(rules, roles, runs, board)
     victims = _victim_totals(board, rules, roles, hotspots)
     hotspots.sort(key=lambda h: (-h.budget_used, STATUS_ORDER[h.status], h.victim, h.aggressor))
     hotspots = [_with_rank(h, i + 1) for i, h in enumerate(hotspots)]
@@ -86,7 +90,7 @@ def run_scan(board: Board, rules: Rules | None = None, progress: Progress | None
                   "budget_basis": rules.scan.budget_basis,
                   "differential_aggressor": rules.scan.differential_aggressor,
                   "cross_section_solves": lookup.solve_count},
-        hotspots=hotspots, victims=victims, warnings=warnings, runs=runs,
+        hotspots=hotspots, victims=victims, geometric=geometric, warnings=warnings, runs=runs,
         piece_coefficients=PieceCoefficients(kb, kf, velocity),
         summary=_summary(hotspots, victims, runs, keep),
     )
@@ -107,53 +111,27 @@ def _plane_nets(board: Board, plane_layers: set[int]) -> set[str]:
     return nets
 
 
-def _score_runs(board, rules: Rules, roles: NetRoles, envs, runs: CoupledRuns, keep, kb, kf, velocity):
-    """Both directions of every kept run, scored in one vectorised pass each."""
-    idx = np.flatnonzero(keep)
-    if len(idx) == 0:
+def _score_runs(board, rules: Rules, roles: NetRoles, envs, runs: CoupledRuns, d: DirectedRuns, kb, kf, velocity):
+    """Every kept run in both directions, scored in one vectorised pass."""
+    if len(d) == 0:
         return []
-    order = runs.piece_order
-    counts = np.diff(runs.run_start)[idx]
-    piece_rows = _gather(order, runs.run_start, idx)
-    run_start = np.concatenate([[0], np.cumsum(counts)])
-    length_m = runs.pieces.length_mm[piece_rows] * 1e-3
-    kb_p, kf_p, v_p = kb[piece_rows], kf[piece_rows], velocity[piece_rows]
-    strong = np.maximum.reduceat(kb_p, run_start[:-1]) if len(kb_p) else np.zeros(0)
-
-    hotspots = []
-    for aggressor_net, victim_net in ((runs.net_a[idx], runs.net_b[idx]), (runs.net_b[idx], runs.net_a[idx])):
-        agg_cls = [roles.classes[c] for c in roles.class_index[aggressor_net]]
-        vic_cls = [roles.classes[c] for c in roles.class_index[victim_net]]
-        swing = np.array([c.swing_v for c in agg_cls])
-        ramp = np.array([c.rise_time_ns for c in agg_cls]) * 1e-9 * RAMP_PER_RISE
-        gain = np.array([2.0 if c.termination == "high-z-receiver" else 1.0 for c in vic_cls])
-        peaks = run_peaks(kb_p, kf_p, length_m, v_p, run_start, swing, ramp, gain)
-        for j, r in enumerate(idx):
-            hotspots.append(_hotspot(board, rules, roles, envs, runs, int(r), int(aggressor_net[j]),
-                                     int(victim_net[j]), agg_cls[j], vic_cls[j], float(peaks.next_v[j]),
-                                     float(peaks.fext_v[j]), float(strong[j])))
+    rows = d.piece_rows
+    next_v, fext_v, used = directed_noise(d, kb[rows], kf[rows], runs.pieces.length_mm[rows] * 1e-3, velocity[rows])
+    kb_max = np.maximum.reduceat(kb[rows], d.piece_start[:-1])
+    hotspots = [_hotspot(board, rules, roles, envs, runs, d, j, float(next_v[j]), float(fext_v[j]),
+                         float(used[j]), float(kb_max[j])) for j in range(len(d))]
     if rules.scan.differential_aggressor == "odd-mode":
         hotspots = _combine_differential(hotspots, board, roles, rules)
     return hotspots
 
 
-def _gather(order, run_start, idx):
-    counts = np.diff(run_start)[idx]
-    first = np.repeat(run_start[idx], counts)
-    within = np.arange(int(counts.sum())) - np.repeat(np.cumsum(counts) - counts, counts)
-    return order[first + within]
-
-
-def _hotspot(board, rules, roles, envs, runs, r, aggressor, victim, agg_cls, vic_cls, next_v, fext_v,
-             kb_max) -> Hotspot:
-    next_budget = vic_cls.next_budget_v()
-    fext_budget = vic_cls.fext_budget_v()
-    used = max(abs(next_v) / next_budget, abs(fext_v) / fext_budget)
+def _hotspot(board, rules, roles, envs, runs, d: DirectedRuns, j, next_v, fext_v, used, kb_max) -> Hotspot:
+    r, aggressor, victim = int(d.run[j]), int(d.aggressor[j]), int(d.victim[j])
+    agg_cls = roles.classes[roles.class_index[aggressor]]
+    vic_cls = roles.classes[roles.class_index[victim]]
     layer_ids = runs.layers_of(r)
     structures = {envs[i].structure for i in layer_ids}
-    model = "single"
-    if roles.partner[aggressor] >= 0:
-        model = "differential (two lines)"
+    model = "differential (two lines)" if roles.partner[aggressor] >= 0 else "single"
     return Hotspot(
         rank=0, status=status_for(used, rules.scan.warn_fraction),
         victim=board.nets[victim], aggressor=board.nets[aggressor],
@@ -167,10 +145,10 @@ def _hotspot(board, rules, roles, envs, runs, r, aggressor, victim, agg_cls, vic
         bbox_mm=[_r(runs.x_min_mm[r]), _r(runs.y_min_mm[r]), _r(runs.x_max_mm[r]), _r(runs.y_max_mm[r])],
         next_mv=_r(next_v * 1e3), fext_mv=_r(fext_v * 1e3),
         next_pct=_r(100 * next_v / vic_cls.swing_v), fext_pct=_r(100 * fext_v / vic_cls.swing_v),
-        next_budget_mv=_r(next_budget * 1e3), fext_budget_mv=_r(fext_budget * 1e3),
+        next_budget_mv=_r(d.next_budget_v[j] * 1e3), fext_budget_mv=_r(d.fext_budget_v[j] * 1e3),
         budget_used=_r(used, 4), kb_max=_r(kb_max, 5),
         strong_coupling=kb_max > STRONG_KB, rise_time_ns=agg_cls.rise_time_ns, swing_v=agg_cls.swing_v,
-        termination=vic_cls.termination, victim_swing_v=vic_cls.swing_v, run=r)
+        termination=vic_cls.termination, victim_swing_v=vic_cls.swing_v, run=r, direction=j)
 
 
 def _combine_differential(hotspots: list[Hotspot], board, roles, rules) -> list[Hotspot]:
@@ -223,6 +201,13 @@ def _victim_totals(board, rules: Rules, roles: NetRoles, hotspots: list[Hotspot]
             next_worst_mv=_r(worst_next), fext_worst_mv=_r(worst_fext), next_budget_mv=_r(nb), fext_budget_mv=_r(fb),
             budget_used=_r(used, 4), aggressors=aggressors))
     return out
+
+
+def _with_fixes(hotspots: list[Hotspot], directed, runs, lookup, board) -> list[Hotspot]:
+    """Attach fix guidance to warn and fail findings of single (or two-line) aggressors."""
+    todo = [h for h in hotspots if h.status != "pass" and h.aggressor_model != "differential (odd mode)"]
+    fixes = fix_guidance(directed, np.array([h.direction for h in todo], dtype=np.int64), runs, lookup, board)
+    return [_replace(h, fix=fixes[h.direction]) if h.direction in fixes else h for h in hotspots]
 
 
 def _with_rank(h: Hotspot, rank: int) -> Hotspot:

@@ -60,11 +60,13 @@ class Hotspot:
     termination: str
     victim_swing_v: float
     run: int  # index into the scan's coupled runs
+    direction: int  # index into the scan's directed runs
     fix: dict | None = None
 
     def to_dict(self) -> dict:
         d = asdict(self)
         d.pop("run")
+        d.pop("direction")
         return d
 
 
@@ -107,6 +109,7 @@ class ScanResult:
     settings: dict
     hotspots: list[Hotspot]
     victims: list[VictimTotal]
+    geometric: list = field(default_factory=list)  # scanner.geometric.GeometricFinding
     warnings: list[str] = field(default_factory=list)
     runs: object = None  # scanner.runs.CoupledRuns, for overlays and waveforms
     piece_coefficients: object = None  # PieceCoefficients aligned with runs.pieces
@@ -114,7 +117,7 @@ class ScanResult:
 
     @property
     def worst_status(self) -> str:
-        statuses = [v.status for v in self.victims]
+        statuses = [v.status for v in self.victims] + [g.status for g in self.geometric]
         for s in ("fail", "warn"):
             if s in statuses:
                 return s
@@ -136,4 +139,5 @@ class ScanResult:
             "warnings": list(self.warnings),
             "hotspots": [h.to_dict() for h in self.hotspots],
             "victims": [v.to_dict() for v in self.victims],
+            "geometric": [g.to_dict() for g in self.geometric],
         }

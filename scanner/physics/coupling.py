@@ -8,8 +8,8 @@ victim, from the line matrices (docs/physics.md §2). For two identical lines::
 
 with L = L11, M = L12, C = C11, E = -C12. For unequal lines the general
 weak-coupling form is used: Kb = v/4 (E Zv + M/Za), Kf = (E Zv - M/Za)/2,
-with Za, Zv the aggressor and victim impedances and v the aggressor velocity;
-it reduces to the above when the lines are equal.
+with Za = sqrt(La/Ca), Zv = sqrt(Lv/Cv) and v = 1/sqrt(La Ca) from the
+diagonal entries; it reduces to the above when the lines are equal.
 """
 from __future__ import annotations
 
@@ -38,7 +38,7 @@ def coupling_coefficients(m: LineMatrices, aggressor: int, victim: int) -> tuple
     mutual_c = -m.C[aggressor, victim]
     mutual_l = m.L[aggressor, victim]
     z_a, z_v = m.z0(aggressor), m.z0(victim)
-    v = m.velocity(aggressor)
+    v = 1 / np.sqrt(m.L[aggressor, aggressor] * m.C[aggressor, aggressor])
     kb = v / 4 * (mutual_c * z_v + mutual_l / z_a)
     kf = (mutual_c * z_v - mutual_l / z_a) / 2
     return float(kb), float(kf)
@@ -115,6 +115,11 @@ class CouplingTable:
     eps_eff: float
     _kb: _LogLogCurve = field(repr=False, compare=False)
     _kf_ratio: _RatioCurve = field(repr=False, compare=False)
+
+    @property
+    def solve_count(self) -> int:
+        """Cross-section solves behind the table: one per spacing and the single trace."""
+        return len(self.spacings_mm) + 1
 
     def kb(self, spacing_mm) -> np.ndarray:
         return self._kb(spacing_mm)

@@ -58,25 +58,26 @@ def _segment_log(p, a, b, want_grad):
 
     p: (m, 1, 2); a, b: (1, n, 2). Exact (closed form in panel coordinates).
     """
-    d = b - a
-    length = np.hypot(d[..., 0], d[..., 1])
-    t = d / length[..., None]
-    ra = a - p
-    u1 = ra[..., 0] * t[..., 0] + ra[..., 1] * t[..., 1]
+    dx, dy = b[..., 0] - a[..., 0], b[..., 1] - a[..., 1]
+    length = np.hypot(dx, dy)
+    tx, ty = dx / length, dy / length
+    rx, ry = a[..., 0] - p[..., 0], a[..., 1] - p[..., 1]
+    u1 = rx * tx + ry * ty
     u2 = u1 + length
-    v = ra[..., 0] * t[..., 1] - ra[..., 1] * t[..., 0]
-    v = np.where(np.abs(v) < _ON_LINE * length, 0.0, v)
-    av = np.abs(v)
-    angle = np.arctan2(u2, av) - np.arctan2(u1, av)
-    r1 = u1 ** 2 + v ** 2
-    r2 = u2 ** 2 + v ** 2
-    value = xlogy(u2, r2) - xlogy(u1, r1) - 2 * length + 2 * av * angle
+    v = rx * ty - ry * tx
+    v[np.abs(v) < _ON_LINE * length] = 0.0
+    v2 = v * v
+    # signed angle the panel subtends at p; zero on the panel's own line (principal value on itself)
+    angle = np.arctan2(v * length, v2 + u1 * u2)
+    angle[v == 0] = 0.0
+    log1 = np.log(u1 * u1 + v2)
+    log2 = np.log(u2 * u2 + v2)
+    value = u2 * log2 - u1 * log1 - 2 * length + 2 * v * angle
     if not want_grad:
         return value, None
-    dlog = np.log(r2) - np.log(r1)
-    sv = 2 * np.sign(v) * angle
-    grad = -t * dlog[..., None] - np.stack([t[..., 1], -t[..., 0]], axis=-1) * sv[..., None]
-    return value, grad
+    dlog = log2 - log1
+    sv = 2 * angle
+    return value, (-tx * dlog - ty * sv, -ty * dlog + tx * sv)
 
 
 def _mirror(points, y0):
@@ -105,7 +106,7 @@ def _smooth_two_planes(p, q, b, want_grad):
     gx = k * sh2a * (1 / num - 1 / den) - 2 * dx * (1 / r_low + 1 / r_high - 1 / r_src)
     gy = (k * (np.sin(2 * k * sy) / num - np.sin(2 * k * dy) / den)
           - 2 * sy / r_low - 2 * (sy - 2 * b) / r_high + 2 * dy / r_src)
-    return value, np.stack([gx, gy], axis=-1)
+    return value, (gx, gy)
 
 
 def panel_integrals(points, start, end, upper_plane_mm=None, normals=None):
@@ -119,21 +120,23 @@ def panel_integrals(points, start, end, upper_plane_mm=None, normals=None):
     a, b = start[None, :, :], end[None, :, :]
     value, grad = _segment_log(p, a, b, want_grad)
     value = -value
-    grad = -grad if want_grad else None
+    gx, gy = (-grad[0], -grad[1]) if want_grad else (None, None)
     images = [0.0] if upper_plane_mm is None else [0.0, upper_plane_mm]
     for y0 in images:
         v_img, g_img = _segment_log(p, _mirror(a, y0), _mirror(b, y0), want_grad)
         value += v_img
         if want_grad:
-            grad += g_img
+            gx += g_img[0]
+            gy += g_img[1]
     if upper_plane_mm is not None:
-        length = np.hypot(*(end - start).T)[None, :]
+        half_length = 0.5 * np.hypot(*(end - start).T)[None, :]
         for w in _GAUSS:
             q = a + w * (b - a)
             v_s, g_s = _smooth_two_planes(p, q, upper_plane_mm, want_grad)
-            value += 0.5 * length * v_s
+            value += half_length * v_s
             if want_grad:
-                grad += 0.5 * length[..., None] * g_s
+                gx += half_length * g_s[0]
+                gy += half_length * g_s[1]
     if not want_grad:
         return value, None
-    return value, np.einsum("mnk,mk->mn", grad, normals)
+    return value, gx * normals[:, 0, None] + gy * normals[:, 1, None]

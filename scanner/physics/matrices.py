@@ -33,8 +33,12 @@ class LineMatrices:
         return float(np.sqrt(self.L[i, i] / self.C[i, i]))
 
     def velocity(self, i: int = 0) -> float:
-        """1 / sqrt(L_ii C_ii), m/s."""
-        return float(1 / np.sqrt(self.L[i, i] * self.C[i, i]))
+        """1 / sqrt((L C)_ii), m/s.
+
+        For one line this is 1 / sqrt(L C); for a symmetric pair it is the mean of the
+        even- and odd-mode 1/v^2; in a homogeneous medium it is exactly c / sqrt(er).
+        """
+        return float(1 / np.sqrt(self.L[i] @ self.C[:, i]))
 
     def eps_eff(self, i: int = 0) -> float:
         """(c / v)^2 for line i."""

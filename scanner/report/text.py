@@ -50,6 +50,13 @@ def render(result: ScanResult, top: int = 20) -> str:
             lines.append(f"… {len(result.hotspots) - top} more hotspots in report.json / hotspots.csv")
     else:
         lines.append("no coupled runs above the minimum length")
+    if result.geometric:
+        lines += ["", "geometric limits between classes (parallel length within a spacing):"]
+        for g in result.geometric:
+            lines.append(f"  FAIL  {g.victim} beside {g.aggressor} ({g.aggressor_class} -> {g.victim_class}) on "
+                         f"{'+'.join(g.layers)}: {g.parallel_mm:.1f} mm within {g.within_spacing_mm:g} mm "
+                         f"(limit {g.max_parallel_mm:g} mm), closest {g.min_spacing_mm:.3f} mm at "
+                         f"{g.x_mm:.2f},{g.y_mm:.2f}")
     sm = result.summary
     lines += ["", f"{sm['victims']} victims: {sm['victims_fail']} fail, {sm['victims_warn']} warn, "
                   f"{sm['victims_pass']} pass — {sm['coupled_runs']} coupled runs scored. "

@@ -27,6 +27,9 @@ def figures(m):
 def test_homogeneous_stripline_has_no_forward_coupling():
     m = solve_cross_section(pair(STRIPLINE, 0.1, thickness_mm=0.018))
     kb, kf = coupling_coefficients(m, 0, 1)
+    assert m.eps_eff(0) == pytest.approx(4.2, rel=1e-9)
+    # homogeneous pair: Kb = (Ze - Zo) / (2 (Ze + Zo)) (docs/physics.md §2)
+    assert kb == pytest.approx((m.z_even - m.z_odd) / (2 * (m.z_even + m.z_odd)), rel=1e-9)
     assert kb > 0.01
     assert abs(kf * m.velocity(0)) < 1e-3  # E/C = M/L in a homogeneous medium (docs/physics.md §2)
 
@@ -134,11 +137,11 @@ def test_vacuum_figures_are_consistent():
     m = solve_cross_section(section)
     assert np.allclose(m.C, m.C0)
     assert np.allclose(m.modes()[0], C0, rtol=1e-9)
+    assert m.velocity(0) == pytest.approx(C0, rel=1e-9) and m.eps_eff(1) == pytest.approx(1.0, rel=1e-9)
     assert m.eps_eff_even == pytest.approx(1.0, rel=1e-9) and m.eps_eff_odd == pytest.approx(1.0, rel=1e-9)
     _, kf = coupling_coefficients(m, 0, 1)
     assert abs(kf) * C0 < 1e-9
-    single = solve_cross_section(traces_on_layer([(0.1, 1.0)], [], "below", [0.1], [], 0.035))
-    assert single.velocity() == pytest.approx(C0, rel=1e-9)
+
 
 
 def test_offset_stripline_and_unequal_lines():

@@ -1,0 +1,94 @@
+"""Draw a copper layer in its true geometry onto a matplotlib Axes, clipped to a window.
+
+Traces are one LineCollection with round caps whose line widths are the trace
+widths converted from millimetres to points at the figure's scale, so each stroke
+covers exactly the copper of the draw. Pads, vias and pours are drawn as one
+compound path per kind (non-zero fill, holes oriented opposite), so overlapping
+copper is drawn once and pale colours stay even. Big layers are rasterised
+inside SVG files to keep them small.
+"""
+from __future__ import annotations
+
+import numpy as np
+import shapely
+from matplotlib.collections import LineCollection
+from matplotlib.patches import PathPatch
+from matplotlib.path import Path
+
+from scanner.board import CopperLayer, TraceSegments
+from scanner.report import palette
+
+#: above this many drawn items a layer's copper is rasterised in vector output
+RASTER_ABOVE = 20_000
+Z_BOARD, Z_POUR, Z_TRACE, Z_PAD, Z_OUTLINE = 0.0, 1.0, 2.0, 3.0, 4.0
+
+Window = tuple[float, float, float, float]  # x0, y0, x1, y1 in mm
+
+
+def polygon_path(geometries) -> Path | None:
+    """One compound Path of all polygonal parts of the geometries (exteriors CCW, holes CW)."""
+    parts = shapely.get_parts(np.asarray(geometries, dtype=object))
+    parts = parts[shapely.get_type_id(parts) == 3]
+    parts = parts[~shapely.is_empty(parts)]
+    if len(parts) == 0:
+        return None
+    _, coords, (ring_offsets, _poly_offsets) = shapely.to_ragged_array(shapely.orient_polygons(parts))
+    codes = np.full(len(coords), Path.LINETO, dtype=Path.code_type)
+    codes[ring_offsets[:-1]] = Path.MOVETO
+    codes[ring_offsets[1:] - 1] = Path.CLOSEPOLY
+    return Path(coords, codes)
+
+
+def segments_in(segments: TraceSegments, window: Window) -> TraceSegments:
+    """Segments whose stroke bounding box meets the window."""
+    x0, y0, x1, y1 = window
+    half = segments.width / 2
+    keep = ((np.minimum(segments.x0, segments.x1) - half <= x1) & (np.maximum(segments.x0, segments.x1) + half >= x0)
+            & (np.minimum(segments.y0, segments.y1) - half <= y1) & (np.maximum(segments.y0, segments.y1) + half >= y0))
+    return segments.select(keep)
+
+
+def stroke_collection(segments: TraceSegments, points_per_mm: float, colour: str, zorder: float,
+                      **style) -> LineCollection:
+    """Segments as round-capped strokes of their true width."""
+    lines = np.stack([np.column_stack([segments.x0, segments.y0]), np.column_stack([segments.x1, segments.y1])], axis=1)
+    return LineCollection(lines, linewidths=segments.width * points_per_mm, colors=colour, capstyle="round",
+                          joinstyle="round", zorder=zorder, **style)
+
+
+def draw_outline(ax, outline, fill: bool = True) -> None:
+    """The board outline: its area filled pale, its edge drawn; open outlines as lines only."""
+    if outline is None:
+        return
+    path = polygon_path([outline])
+    if path is not None:
+        ax.add_patch(PathPatch(path, facecolor=palette.BOARD_FILL if fill else "none", edgecolor="none",
+                               zorder=Z_BOARD))
+    parts = shapely.get_parts(np.asarray([outline], dtype=object))
+    kind = shapely.get_type_id(parts)
+    edges = np.concatenate([shapely.get_rings(parts[kind == 3]), parts[(kind == 1) | (kind == 2)]])
+    lines = [shapely.get_coordinates(edge) for edge in edges if not edge.is_empty]
+    if lines:
+        ax.add_collection(LineCollection(lines, colors=palette.BOARD_EDGE, linewidths=0.9, zorder=Z_OUTLINE))
+
+
+def draw_copper(ax, layer: CopperLayer, window: Window, points_per_mm: float) -> int:
+    """The layer's traces, pads, vias and pours inside the window; returns how many items were drawn."""
+    segments = segments_in(layer.segments, window)
+    shapes = layer.shapes
+    drawn = len(segments)
+    if len(shapes):
+        bounds = shapely.bounds(shapes.geometry)
+        x0, y0, x1, y1 = window
+        inside = (bounds[:, 0] <= x1) & (bounds[:, 2] >= x0) & (bounds[:, 1] <= y1) & (bounds[:, 3] >= y0)
+        pour = shapes.role == "region"
+        drawn += int(inside.sum())
+    raster = drawn > RASTER_ABOVE
+    if len(shapes):
+        for mask, colour, z in ((inside & pour, palette.POUR, Z_POUR), (inside & ~pour, palette.PAD, Z_PAD)):
+            path = polygon_path(shapes.geometry[mask])
+            if path is not None:
+                ax.add_patch(PathPatch(path, facecolor=colour, edgecolor="none", zorder=z, rasterized=raster))
+    if len(segments):
+        ax.add_collection(stroke_collection(segments, points_per_mm, palette.TRACE, Z_TRACE, rasterized=raster))
+    return drawn

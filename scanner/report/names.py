@@ -1,0 +1,33 @@
+"""File names of the images in a report folder (one place, so images and page agree)."""
+from __future__ import annotations
+
+import re
+
+COMPOSITE_STEM = "overlay-all"
+
+
+def _slug(name: str) -> str:
+    return re.sub(r"[^A-Za-z0-9._-]+", "_", name).strip("._") or "layer"
+
+
+def layer_stems(layer_names: list[str]) -> dict[str, str]:
+    """``overlay-<layer>`` stem per layer name, safe as a file name and unique (a suffix where slugs collide)."""
+    stems: dict[str, str] = {}
+    taken = {COMPOSITE_STEM}
+    for name in layer_names:
+        stem = f"overlay-{_slug(name)}"
+        n = 2
+        while stem in taken:
+            stem = f"overlay-{_slug(name)}-{n}"
+            n += 1
+        taken.add(stem)
+        stems[name] = stem
+    return stems
+
+
+def crop_file(rank: int) -> str:
+    return f"hotspot-{rank}.png"
+
+
+def wave_file(rank: int) -> str:
+    return f"wave-{rank}.png"

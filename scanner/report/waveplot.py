@@ -1,0 +1,145 @@
+"""Predicted victim noise against time for one finding, and its plot.
+
+The waveforms come from ``scanner.physics.crosstalk.piecewise_peaks`` (weak
+coupling, docs/physics.md §3) with the finding's own chain of pieces and their
+coefficients, the aggressor's rise time and swing and the victim's termination;
+the orientation shown is the one with the larger near-end noise. The time grid
+contains every breakpoint of the piecewise-linear waveforms, so the plotted peaks
+are the model's exact peaks.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+from matplotlib.backends.backend_agg import FigureCanvasAgg
+from matplotlib.figure import Figure
+
+from scanner.board import Board
+from scanner.physics.crosstalk import aggressor_edge, piecewise_peaks, ramp_duration_s
+from scanner.report import palette
+from scanner.score import Hotspot, ScanResult
+
+GRID_POINTS = 1200
+FIGURE_IN = (8.0, 4.2)
+ODD_MODE = "differential (odd mode)"
+
+
+@dataclass(frozen=True)
+class FindingWaveforms:
+    """Victim voltages (V) at both ends and the aggressor's edge (V) on one time grid (s)."""
+
+    time_s: np.ndarray
+    near_end_v: np.ndarray
+    far_end_v: np.ndarray
+    aggressor_v: np.ndarray
+    aggressor: str  # the aggressor net whose run is shown
+    far_end_receiver: str  # "matched" or "high_z"
+
+    @property
+    def near_end_peak_v(self) -> float:
+        return float(self.near_end_v[np.argmax(np.abs(self.near_end_v))])
+
+    @property
+    def far_end_peak_v(self) -> float:
+        return float(self.far_end_v[np.argmax(np.abs(self.far_end_v))])
+
+
+def _time_grid(delay_s: np.ndarray, ramp_s: float) -> np.ndarray:
+    """Uniform samples plus every breakpoint (either orientation), each also just before and after."""
+    total = float(delay_s.sum())
+    starts = 2 * np.concatenate([np.cumsum(delay_s) - delay_s, np.cumsum(delay_s[::-1]) - delay_s[::-1]])
+    knots = np.concatenate([starts, starts + 2 * np.concatenate([delay_s, delay_s[::-1]]),
+                            [0.0, total, 2 * total]])
+    knots = np.concatenate([knots, knots + ramp_s])
+    eps = 1e-6 * ramp_s
+    end = 2 * total + 2.5 * ramp_s
+    uniform = np.linspace(-0.1 * end, end, GRID_POINTS)
+    return np.unique(np.concatenate([uniform, knots - eps, knots + eps]))
+
+
+def finding_waveforms(result: ScanResult, board: Board, hotspot: Hotspot) -> FindingWaveforms:
+    """Waveforms of one finding's run from its pieces' coefficients (aggressor edge starts at t = 0).
+
+    For a differential aggressor in the odd-mode model the run is that of the member
+    the finding carries; the scan's figure combines both members.
+    """
+    runs, coeff = result.runs, result.piece_coefficients
+    rows = runs.pieces_of(hotspot.run)
+    length_m = runs.pieces.length_mm[rows] * 1e-3
+    velocity = coeff.velocity_m_per_s[rows]
+    rise_time_s = hotspot.rise_time_ns * 1e-9
+    receiver = "high_z" if hotspot.termination == "high-z-receiver" else "matched"
+    time_s = _time_grid(length_m / velocity, float(ramp_duration_s(rise_time_s)))
+    noise = piecewise_peaks(coeff.kb[rows], coeff.kf_s_per_m[rows], length_m, velocity, rise_time_s,
+                            hotspot.swing_v, far_end_receiver=receiver, waveforms=True, time_s=time_s)
+    victim = board.net_id(hotspot.victim)
+    net_a, net_b = int(runs.net_a[hotspot.run]), int(runs.net_b[hotspot.run])
+    aggressor = board.nets[net_b if net_a == victim else net_a]
+    return FindingWaveforms(time_s, noise.near_end_v, noise.far_end_v,
+                            aggressor_edge(time_s, rise_time_s, hotspot.swing_v), aggressor, receiver)
+
+
+def _budget_lines(ax, hotspot: Hotspot) -> list[float]:
+    """The ±budget band(s); returns the budget magnitudes (V) drawn."""
+    budgets = {"NEXT": hotspot.next_budget_mv * 1e-3, "FEXT": hotspot.fext_budget_mv * 1e-3}
+    finite = {k: v for k, v in budgets.items() if np.isfinite(v)}
+    if not finite:
+        return []
+    shared = len(set(finite.values())) == 1
+    inner = min(finite.values())
+    ax.axhspan(-inner * 1e3, inner * 1e3, color=palette.BUDGET_BAND, zorder=0)
+    for name, budget in finite.items():
+        colour = palette.BUDGET_LINE if shared else (palette.NEAR_END if name == "NEXT" else palette.FAR_END)
+        label = f"budget ±{budget * 1e3:.4g} mV" if shared else f"{name} budget ±{budget * 1e3:.4g} mV"
+        for sign in (1, -1):
+            ax.axhline(sign * budget * 1e3, color=colour, linestyle=(0, (5, 3)), linewidth=0.9, zorder=1,
+                       label=label if sign > 0 else None)
+        if shared:
+            break
+    return list(finite.values())
+
+
+def wave_figure(waves: FindingWaveforms, hotspot: Hotspot) -> Figure:
+    """Near-end and far-end victim noise (mV) with the budget band and the aggressor edge (right axis)."""
+    fig = Figure(figsize=FIGURE_IN, facecolor=palette.BACKGROUND)
+    FigureCanvasAgg(fig)
+    ax = fig.add_axes((0.09, 0.14, 0.8, 0.68))
+    t_ns = waves.time_s * 1e9
+    budgets = _budget_lines(ax, hotspot)
+    far_label = "far end (high-impedance receiver: doubled)" if waves.far_end_receiver == "high_z" else "far end"
+    ax.plot(t_ns, waves.near_end_v * 1e3, color=palette.NEAR_END, linewidth=1.7, label="near end", zorder=3)
+    ax.plot(t_ns, waves.far_end_v * 1e3, color=palette.FAR_END, linewidth=1.7, label=far_label, zorder=3)
+    for peak_v, values, colour, name in ((waves.near_end_peak_v, waves.near_end_v, palette.NEAR_END, "NEXT"),
+                                         (waves.far_end_peak_v, waves.far_end_v, palette.FAR_END, "FEXT")):
+        t_peak = t_ns[np.argmax(np.abs(values))]
+        ax.plot([t_peak], [peak_v * 1e3], "o", color=colour, markersize=4, zorder=4)
+        ax.annotate(f"{name} {peak_v * 1e3:.4g} mV", (t_peak, peak_v * 1e3), textcoords="offset points",
+                    xytext=(6, 6 if peak_v >= 0 else -12), fontsize=7.5, color=colour, zorder=5)
+    noise_max = max(abs(waves.near_end_peak_v), abs(waves.far_end_peak_v), 1e-6)
+    shown = [b for b in budgets if b <= 4 * noise_max]
+    limit = 1.25 * max([noise_max] + shown) * 1e3
+    ax.set_ylim(-limit, limit)
+    ax.set_xlim(t_ns[0], t_ns[-1])
+    ax.axhline(0, color="#b9b1a3", linewidth=0.6, zorder=1)
+    ax.set_xlabel("time after the aggressor edge starts (ns)", fontsize=8)
+    ax.set_ylabel("victim noise (mV)", fontsize=8)
+    ax.tick_params(labelsize=7)
+    edge_ax = ax.twinx()
+    edge_ax.plot(t_ns, waves.aggressor_v, color=palette.EDGE, linestyle=(0, (2, 2)), linewidth=1.1,
+                 label=f"aggressor edge, {hotspot.rise_time_ns:g} ns 10–90 % (right axis)")
+    edge_ax.set_ylim(-1.25 * hotspot.swing_v, 1.25 * hotspot.swing_v)
+    edge_ax.set_ylabel("aggressor (V)", fontsize=8, color=palette.EDGE)
+    edge_ax.tick_params(labelsize=7, colors=palette.EDGE)
+    handles, labels = ax.get_legend_handles_labels()
+    more_h, more_l = edge_ax.get_legend_handles_labels()
+    ax.legend(handles + more_h, labels + more_l, fontsize=7, loc="lower right", framealpha=0.9)
+    note = ""
+    if hotspot.aggressor_model == ODD_MODE:
+        note = f" — run from {waves.aggressor} only; the table combines both members of the pair"
+    fig.text(0.09, 0.93, f"#{hotspot.rank}  {hotspot.victim} (victim) ← {hotspot.aggressor} (aggressor)",
+             fontsize=10, color=palette.INK, ha="left")
+    fig.text(0.09, 0.875, f"{hotspot.coupled_length_mm:.4g} mm coupled on {'+'.join(hotspot.layers)} "
+             f"({hotspot.structure}), swing {hotspot.swing_v:g} V, weak-coupling estimate{note}",
+             fontsize=7.5, color="#6b6357", ha="left")
+    return fig
