@@ -5,6 +5,7 @@ repeated runs, the panel count and, for the table, the number of solves.
 """
 from __future__ import annotations
 
+import os
 import statistics
 import time
 
@@ -46,6 +47,8 @@ def table_fresh():
 
 
 def main():
+    print(f"OPENBLAS_NUM_THREADS={os.environ.get('OPENBLAS_NUM_THREADS', '(unset)')}, load average "
+          f"{os.getloadavg()[0]:.1f}")
     print(f"{'cross-section':36s} {'panels':>6s} {'best ms':>8s} {'median ms':>9s}")
     for name, section in CASES.items():
         best, median = timed(lambda: solve_fresh(section), REPEATS)

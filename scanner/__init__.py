@@ -9,6 +9,14 @@ Python API::
 """
 from __future__ import annotations
 
+import os
+
+# The cross-section matrices are small (hundreds of unknowns): one BLAS thread solves them in a
+# steady 10-25 ms, while two threads swing from 5 to 500 ms when the other core is busy. Set
+# before numpy loads; a caller's own setting wins.
+for _var in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
+    os.environ.setdefault(_var, "1")
+
 __all__ = ["load_board", "scan", "InputError"]
 
 from scanner.errors import InputError

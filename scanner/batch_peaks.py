@@ -10,7 +10,8 @@ of amplitude dV and duration T:
 
 with r(t) = clip(t / T, 0, 1) and tau_k the delay from the near end to piece k.
 The near-end sum is piecewise linear in t, so its peak lies on one of the
-breakpoints s_k or s_k + T; we evaluate it there exactly, with no time grid.
+breakpoints s_k or s_k + T; we evaluate it there exactly, with no time grid,
+in O(K log K) per run of K pieces.
 
 The near-end waveform is the run's Kb profile (as a function of round-trip
 delay) filtered by a box of the ramp's duration, so driving the run from the
@@ -32,16 +33,9 @@ class RunPeaks:
     fext_v: np.ndarray
 
 
-def _group_offsets(counts: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """For groups of the given sizes: group id of every element and its position within the group."""
-    group = np.repeat(np.arange(len(counts)), counts)
-    starts = np.cumsum(counts) - counts
-    return group, np.arange(int(counts.sum())) - starts[group]
-
-
 def run_peaks(kb: np.ndarray, kf_s_per_m: np.ndarray, length_m: np.ndarray, velocity_m_per_s: np.ndarray,
-              run_start: np.ndarray, swing_v: np.ndarray, ramp_s: np.ndarray, fext_gain: np.ndarray | float = 1.0,
-              chunk_pairs: int = 4_000_000) -> RunPeaks:
+              run_start: np.ndarray, swing_v: np.ndarray, ramp_s: np.ndarray,
+              fext_gain: np.ndarray | float = 1.0) -> RunPeaks:
     """Peaks for runs given as consecutive pieces (CSR: run r owns pieces run_start[r]:run_start[r+1]).
 
     ``swing_v``, ``ramp_s`` and ``fext_gain`` are per run (the aggressor's swing and
@@ -68,54 +62,47 @@ def run_peaks(kb: np.ndarray, kf_s_per_m: np.ndarray, length_m: np.ndarray, velo
     # delay from the run's first piece to the start of each piece
     before = np.cumsum(delay) - delay
     start = before - before[np.minimum(run_start[:-1], len(kb) - 1)][run_of_piece] if len(kb) else before
-    next_v = _near_end_peak(kb, 2 * start, 2 * (start + delay), run_of_piece, counts, ramp_s, chunk_pairs)
+    next_v = _near_end_peak(kb, 2 * start, 2 * (start + delay), run_of_piece, counts, ramp_s)
     return RunPeaks(swing_v * next_v, fext_v)
 
 
-def _near_end_peak(kb, s_begin, s_end, run_of_piece, counts, ramp_s, chunk_pairs) -> np.ndarray:
-    """max_t |sum_k kb_k (r(t - s_begin_k) - r(t - s_end_k))| per run, for a unit swing."""
+def _near_end_peak(kb, s_begin, s_end, run_of_piece, counts, ramp_s) -> np.ndarray:
+    """max_t |sum_k kb_k (r(t - s_begin_k) - r(t - s_end_k))| per run, for a unit swing.
+
+    With pieces end to end (s_end_k = s_begin_{k+1}) the sum is sum_j c_j r(t - b_j) over the
+    breakpoints b_j with steps c_j = kb_j - kb_{j-1}. Prefix sums of c and c*b over the sorted
+    breakpoints give it at any t in O(log K); every run is shifted by its own offset so one
+    global searchsorted serves all runs at once.
+    """
     n_runs = len(counts)
-    peak = np.zeros(n_runs)
     if len(kb) == 0:
-        return peak
-    # candidate times: every piece's start and end, and each shifted by the ramp
-    t_ramp = ramp_s[run_of_piece]
-    cand_t = np.concatenate([s_begin, s_begin + t_ramp, s_end, s_end + t_ramp])
-    cand_run = np.tile(run_of_piece, 4)
-    order = np.argsort(cand_run, kind="stable")
-    cand_t, cand_run = cand_t[order], cand_run[order]
-    cand_counts = np.bincount(cand_run, minlength=n_runs)
-    piece_first = np.cumsum(counts) - counts
+        return np.zeros(n_runs)
+    first = np.cumsum(counts) - counts
+    last = first + counts - 1
+    # breakpoints: each piece's start, plus the run's end; steps of the Kb profile
+    step = kb - np.concatenate([[0.0], kb[:-1]])
+    step[first] = kb[first]
+    points = np.concatenate([s_begin, s_end[last]])
+    steps = np.concatenate([step, -kb[last]])
+    run_of_point = np.concatenate([run_of_piece, np.arange(n_runs)])
+    span = float(np.max(s_end) + np.max(ramp_s)) * 2 + 1e-30
+    key = points + run_of_point * span
+    order = np.argsort(key, kind="stable")
+    key, steps, points, run_of_point = key[order], steps[order], points[order], run_of_point[order]
+    c0 = np.concatenate([[0.0], np.cumsum(steps)])
+    c1 = np.concatenate([[0.0], np.cumsum(steps * points)])
+    ramp = ramp_s[run_of_point]
+    offset = run_of_point * span
 
-    pairs_per_run = cand_counts * counts
-    # process runs in chunks so the (candidate, piece) pair arrays stay bounded
-    bounds = _chunks(pairs_per_run, chunk_pairs)
-    cand_first = np.cumsum(cand_counts) - cand_counts
-    for lo, hi in bounds:
-        c_lo, c_hi = cand_first[lo], cand_first[hi - 1] + cand_counts[hi - 1]
-        ct = cand_t[c_lo:c_hi]
-        cr = cand_run[c_lo:c_hi]
-        reps = counts[cr]
-        cidx = np.repeat(np.arange(len(ct)), reps)
-        _, pos = _group_offsets(reps)
-        pidx = piece_first[cr][cidx] + pos
-        t = ct[cidx]
-        T = ramp_s[cr][cidx]
-        contrib = kb[pidx] * (np.clip((t - s_begin[pidx]) / T, 0, 1) - np.clip((t - s_end[pidx]) / T, 0, 1))
-        value = np.abs(np.bincount(cidx, weights=contrib, minlength=len(ct)))
-        np.maximum.at(peak, cr, value)
+    def value(t_local):
+        t = t_local + offset
+        hi = np.searchsorted(key, t, side="right")
+        lo = np.searchsorted(key, t - ramp, side="right")
+        # run boundaries: prefix sums restart per run because every run's steps sum to zero
+        inside = (c0[hi] - c0[lo]) * t_local - (c1[hi] - c1[lo])
+        return c0[lo] + inside / ramp
+
+    v = np.maximum(np.abs(value(points)), np.abs(value(points + ramp)))
+    peak = np.zeros(n_runs)
+    np.maximum.at(peak, run_of_point, v)
     return peak
-
-
-def _chunks(weights: np.ndarray, limit: int) -> list[tuple[int, int]]:
-    """Split 0..len(weights) into consecutive ranges whose weight sum stays near ``limit``."""
-    out = []
-    lo = 0
-    cum = np.cumsum(weights)
-    n = len(weights)
-    while lo < n:
-        base = cum[lo - 1] if lo else 0
-        hi = min(max(int(np.searchsorted(cum, base + limit, side="right")), lo + 1), n)
-        out.append((lo, hi))
-        lo = hi
-    return out

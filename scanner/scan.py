@@ -7,13 +7,13 @@ direction -> per-victim totals against budgets -> ranking.
 """
 from __future__ import annotations
 
-from dataclasses import replace as _replace
+from dataclasses import dataclass
 from typing import Callable
 
 import numpy as np
 
 from scanner.board import Board
-from scanner.coefficients import CouplingLookup
+from scanner.coefficients import CouplingLookup, most_used_width
 from scanner.finder import find_coupled_pieces
 from scanner.fixes import fix_guidance
 from scanner.geometric import check_geometric_limits
@@ -21,7 +21,7 @@ from scanner.layerstack import effective_stackup, layer_environments
 from scanner.directed import DirectedRuns, directed_noise, directed_runs
 from scanner.rules import NetRoles, Rules, assign_roles
 from scanner.runs import build_runs, CoupledRuns
-from scanner.score import Hotspot, PieceCoefficients, ScanResult, VictimTotal, STATUS_ORDER, status_for
+from scanner.score import Hotspot, PieceCoefficients, ScanResult, VictimTotal, status_for
 
 #: search distance derived from the stackup: this many times the largest trace-to-plane height
 SEARCH_HEIGHTS = 4.0
@@ -61,20 +61,20 @@ def run_scan(board: Board, rules: Rules | None = None, progress: Progress | None
     keep = runs.coupled_length_mm >= rules.scan.min_coupled_length_mm
 
     say(f"solving cross-sections for {int(keep.sum())} runs")
-    lookup = CouplingLookup(envs, search_mm)
+    lookup = CouplingLookup(envs, search_mm, most_used_width(layers))
     p = runs.pieces
     kb, kf, velocity = lookup.coefficients(p.layer, 0.5 * (p.width_a_mm + p.width_b_mm),
                                            np.maximum(p.spacing_mean_mm, MIN_SPACING_MM))
 
     say("scoring")
     directed = directed_runs(rules, roles, runs, keep)
-    hotspots = _score_runs(board, rules, roles, envs, runs, directed, kb, kf, velocity)
-    hotspots = _with_fixes(hotspots, directed, runs, lookup, board)
+    noise = _score(rules, roles, directed, runs, kb, kf, velocity)
+    listed = _listed(noise, board, rules)
+    fixes = fix_guidance(directed, listed[noise.status[listed] > 0], runs, lookup, board)
+    hotspots = [_hotspot(board, roles, envs, runs, directed, noise, int(j), rank, fixes.get(int(j)))
+                for rank, j in enumerate(listed, 1)]
+    victims = _victim_totals(board, rules, roles, directed, noise)
     geometric = check_geometric_limits(rules, roles, runs, board)
-    victims = _victim_totals(board, rules, roles, hotspots)
-    hotspots.sort(key=lambda h: (-h.budget_used, STATUS_ORDER[h.status], h.victim, h.aggressor))
-    hotspots = [_with_rank(h, i + 1) for i, h in enumerate(hotspots)]
-    victims.sort(key=lambda v: (-v.budget_used, v.net))
 
     return ScanResult(
         board=_board_summary(board),
@@ -92,7 +92,7 @@ def run_scan(board: Board, rules: Rules | None = None, progress: Progress | None
                   "cross_section_solves": lookup.solve_count},
         hotspots=hotspots, victims=victims, geometric=geometric, warnings=warnings, runs=runs,
         piece_coefficients=PieceCoefficients(kb, kf, velocity),
-        summary=_summary(hotspots, victims, runs, keep),
+        summary=_summary(noise, hotspots, victims, runs, keep),
     )
 
 
@@ -111,30 +111,88 @@ def _plane_nets(board: Board, plane_layers: set[int]) -> set[str]:
     return nets
 
 
-def _score_runs(board, rules: Rules, roles: NetRoles, envs, runs: CoupledRuns, d: DirectedRuns, kb, kf, velocity):
-    """Every kept run in both directions, scored in one vectorised pass."""
-    if len(d) == 0:
-        return []
+@dataclass(frozen=True)
+class Noise:
+    """Per directed run: predicted peaks, the fraction of budget used, status (0 pass, 1 warn, 2 fail).
+
+    ``alive`` is False for a differential member folded into its partner's entry (odd-mode model).
+    """
+
+    next_v: np.ndarray
+    fext_v: np.ndarray
+    used: np.ndarray
+    status: np.ndarray
+    kb_max: np.ndarray
+    odd_mode: np.ndarray
+    alive: np.ndarray
+
+
+STATUS_NAMES = ("pass", "warn", "fail")
+
+
+def _score(rules: Rules, roles: NetRoles, d: DirectedRuns, runs: CoupledRuns, kb, kf, velocity) -> Noise:
+    """Every kept run in both directions, in one vectorised pass."""
     rows = d.piece_rows
     next_v, fext_v, used = directed_noise(d, kb[rows], kf[rows], runs.pieces.length_mm[rows] * 1e-3, velocity[rows])
-    kb_max = np.maximum.reduceat(kb[rows], d.piece_start[:-1])
-    hotspots = [_hotspot(board, rules, roles, envs, runs, d, j, float(next_v[j]), float(fext_v[j]),
-                         float(used[j]), float(kb_max[j])) for j in range(len(d))]
+    kb_max = np.maximum.reduceat(kb[rows], d.piece_start[:-1]) if len(rows) else np.zeros(0)
+    odd = np.zeros(len(d), dtype=bool)
+    alive = np.ones(len(d), dtype=bool)
     if rules.scan.differential_aggressor == "odd-mode":
-        hotspots = _combine_differential(hotspots, board, roles, rules)
-    return hotspots
+        next_v, fext_v, used, odd, alive = _odd_mode(roles, d, next_v, fext_v)
+    status = np.where(used > 1.0, 2, np.where(used >= rules.scan.warn_fraction, 1, 0))
+    return Noise(next_v, fext_v, used, status, kb_max, odd, alive)
 
 
-def _hotspot(board, rules, roles, envs, runs, d: DirectedRuns, j, next_v, fext_v, used, kb_max) -> Hotspot:
+def _odd_mode(roles: NetRoles, d: DirectedRuns, next_v, fext_v):
+    """Both members of a differential aggressor drive opposite edges, so on one victim their
+    contributions subtract. Approximation: the members' peaks are taken as coincident in time.
+    The combined figure is kept on the positive member's entry; the negative member's is folded in."""
+    partner = roles.partner[d.aggressor]
+    member = partner >= 0
+    positive = np.where(roles.polarity[d.aggressor] > 0, d.aggressor, partner)
+    sign = np.where(roles.polarity[d.aggressor] > 0, 1.0, -1.0)
+    key = np.where(member, positive.astype(np.int64) << np.int64(32) | d.victim, -1 - np.arange(len(d)))
+    uniq, group = np.unique(key, return_inverse=True)
+    group = group.ravel()
+    next_sum = np.bincount(group, weights=sign * next_v, minlength=len(uniq))
+    fext_sum = np.bincount(group, weights=sign * fext_v, minlength=len(uniq))
+    size = np.bincount(group, minlength=len(uniq))
+    combined = member & (size[group] == 2)
+    next_v = np.where(combined, np.abs(next_sum[group]), next_v)
+    fext_v = np.where(combined, fext_sum[group], fext_v)
+    alive = ~combined | (sign > 0)
+    used = np.maximum(np.abs(next_v) / d.next_budget_v, np.abs(fext_v) / d.fext_budget_v)
+    return next_v, fext_v, used, combined, alive
+
+
+#: findings under this fraction of their budget are counted in the summary but not listed
+LIST_FLOOR = 0.05
+
+
+def _listed(noise: Noise, board: Board, rules: Rules) -> np.ndarray:
+    """Directed runs to list, ranked: most budget used first, then victim and aggressor name."""
+    candidates = np.flatnonzero(noise.alive & (noise.used >= LIST_FLOOR))
+    return candidates[np.argsort(-noise.used[candidates], kind="stable")]
+
+
+def _hotspot(board, roles, envs, runs, d: DirectedRuns, noise: Noise, j, rank, fix) -> Hotspot:
     r, aggressor, victim = int(d.run[j]), int(d.aggressor[j]), int(d.victim[j])
     agg_cls = roles.classes[roles.class_index[aggressor]]
     vic_cls = roles.classes[roles.class_index[victim]]
     layer_ids = runs.layers_of(r)
     structures = {envs[i].structure for i in layer_ids}
-    model = "differential (two lines)" if roles.partner[aggressor] >= 0 else "single"
+    next_v, fext_v, used, kb_max = (float(noise.next_v[j]), float(noise.fext_v[j]), float(noise.used[j]),
+                                    float(noise.kb_max[j]))
+    aggressor_name = board.nets[aggressor]
+    model = "single"
+    if roles.partner[aggressor] >= 0:
+        model = "differential (two lines)"
+        if noise.odd_mode[j]:
+            model = "differential (odd mode)"
+            aggressor_name = f"{aggressor_name} / {board.nets[int(roles.partner[aggressor])]}"
     return Hotspot(
-        rank=0, status=status_for(used, rules.scan.warn_fraction),
-        victim=board.nets[victim], aggressor=board.nets[aggressor],
+        rank=rank, status=STATUS_NAMES[int(noise.status[j])],
+        victim=board.nets[victim], aggressor=aggressor_name,
         victim_class=vic_cls.name, aggressor_class=agg_cls.name, aggressor_model=model,
         layer=board.layers[int(runs.main_layer[r])].name, layers=[board.layers[i].name for i in layer_ids],
         structure=structures.pop() if len(structures) == 1 else "mixed",
@@ -148,70 +206,42 @@ def _hotspot(board, rules, roles, envs, runs, d: DirectedRuns, j, next_v, fext_v
         next_budget_mv=_r(d.next_budget_v[j] * 1e3), fext_budget_mv=_r(d.fext_budget_v[j] * 1e3),
         budget_used=_r(used, 4), kb_max=_r(kb_max, 5),
         strong_coupling=kb_max > STRONG_KB, rise_time_ns=agg_cls.rise_time_ns, swing_v=agg_cls.swing_v,
-        termination=vic_cls.termination, victim_swing_v=vic_cls.swing_v, run=r, direction=j)
+        termination=vic_cls.termination, victim_swing_v=vic_cls.swing_v, run=r, direction=j, fix=fix)
 
 
-def _combine_differential(hotspots: list[Hotspot], board, roles, rules) -> list[Hotspot]:
-    """Odd-mode model: the two members of a pair drive opposite edges, so their contributions on a
-    victim subtract. Approximation: the members' peaks are taken as coincident in time."""
-    by_key = {}
-    rest = []
-    for h in hotspots:
-        a = board.net_id(h.aggressor)
-        if roles.partner[a] >= 0:
-            pos = a if roles.polarity[a] > 0 else int(roles.partner[a])
-            by_key.setdefault((board.nets[pos], h.victim), []).append(h)
-        else:
-            rest.append(h)
-    for (pos_name, _victim), group in by_key.items():
-        sign = {h.aggressor: (1 if h.aggressor == pos_name else -1) for h in group}
-        next_v = abs(sum(sign[h.aggressor] * h.next_mv for h in group))
-        fext_v = sum(sign[h.aggressor] * h.fext_mv for h in group)
-        lead = max(group, key=lambda h: h.budget_used)
-        used = max(next_v / lead.next_budget_mv, abs(fext_v) / lead.fext_budget_mv)
-        swing_mv = lead.victim_swing_v * 1e3
-        names = sorted({h.aggressor for h in group})
-        rest.append(_replace(lead, aggressor=" / ".join(names), aggressor_model="differential (odd mode)",
-                             next_mv=_r(next_v), fext_mv=_r(fext_v), next_pct=_r(100 * next_v / swing_mv),
-                             fext_pct=_r(100 * fext_v / swing_mv), budget_used=_r(used, 4),
-                             status=status_for(used, rules.scan.warn_fraction)))
-    return rest
-
-
-def _victim_totals(board, rules: Rules, roles: NetRoles, hotspots: list[Hotspot]) -> list[VictimTotal]:
-    by_victim: dict[str, list[Hotspot]] = {}
-    for h in hotspots:
-        by_victim.setdefault(h.victim, []).append(h)
+def _victim_totals(board, rules: Rules, roles: NetRoles, d: DirectedRuns, noise: Noise) -> list[VictimTotal]:
+    """Per victim over all its aggressors: worst-case sum and root-sum-square of the peaks."""
+    alive = np.flatnonzero(noise.alive)
+    if len(alive) == 0:
+        return []
+    victim = d.victim[alive]
+    nets, group = np.unique(victim, return_inverse=True)
+    group = group.ravel()
+    next_abs, fext_abs = np.abs(noise.next_v[alive]) * 1e3, np.abs(noise.fext_v[alive]) * 1e3
+    worst_next = np.bincount(group, weights=next_abs)
+    worst_fext = np.bincount(group, weights=fext_abs)
+    rss_next = np.sqrt(np.bincount(group, weights=next_abs ** 2))
+    rss_fext = np.sqrt(np.bincount(group, weights=fext_abs ** 2))
+    cls = [roles.classes[c] for c in roles.class_index[nets]]
+    nb = np.array([c.next_budget_v() for c in cls]) * 1e3
+    fb = np.array([c.fext_budget_v() for c in cls]) * 1e3
+    swing_mv = np.array([c.swing_v for c in cls]) * 1e3
+    basis = (worst_next, worst_fext) if rules.scan.budget_basis == "worst-case" else (rss_next, rss_fext)
+    used = np.maximum(basis[0] / nb, basis[1] / fb)
+    # each victim's aggressors, most budget first
+    order = np.lexsort((-noise.used[alive], group))
+    bounds = np.searchsorted(group[order], np.arange(len(nets) + 1))
     out = []
-    for net, group in by_victim.items():
-        cls = roles.classes[roles.class_index[board.net_id(net)]]
-        next_abs = np.array([abs(h.next_mv) for h in group])
-        fext_abs = np.array([abs(h.fext_mv) for h in group])
-        worst_next, worst_fext = next_abs.sum(), fext_abs.sum()
-        rss_next, rss_fext = np.sqrt((next_abs ** 2).sum()), np.sqrt((fext_abs ** 2).sum())
-        nb, fb = cls.next_budget_v() * 1e3, cls.fext_budget_v() * 1e3
-        basis_next, basis_fext = (worst_next, worst_fext) if rules.scan.budget_basis == "worst-case" else (rss_next, rss_fext)
-        used = max(basis_next / nb, basis_fext / fb)
-        swing_mv = cls.swing_v * 1e3
-        aggressors = [h.aggressor for h in sorted(group, key=lambda h: -h.budget_used)]
+    for g in np.argsort(-used, kind="stable"):
+        members = alive[order[bounds[g]:bounds[g + 1]]]
         out.append(VictimTotal(
-            net=net, net_class=cls.name, status=status_for(used, rules.scan.warn_fraction),
-            next_worst_pct=_r(100 * worst_next / swing_mv), fext_worst_pct=_r(100 * worst_fext / swing_mv),
-            next_rss_pct=_r(100 * rss_next / swing_mv), fext_rss_pct=_r(100 * rss_fext / swing_mv),
-            next_worst_mv=_r(worst_next), fext_worst_mv=_r(worst_fext), next_budget_mv=_r(nb), fext_budget_mv=_r(fb),
-            budget_used=_r(used, 4), aggressors=aggressors))
+            net=board.nets[int(nets[g])], net_class=cls[g].name, status=status_for(used[g], rules.scan.warn_fraction),
+            next_worst_pct=_r(100 * worst_next[g] / swing_mv[g]), fext_worst_pct=_r(100 * worst_fext[g] / swing_mv[g]),
+            next_rss_pct=_r(100 * rss_next[g] / swing_mv[g]), fext_rss_pct=_r(100 * rss_fext[g] / swing_mv[g]),
+            next_worst_mv=_r(worst_next[g]), fext_worst_mv=_r(worst_fext[g]), next_budget_mv=_r(nb[g]),
+            fext_budget_mv=_r(fb[g]), budget_used=_r(used[g], 4),
+            aggressors=[board.nets[int(a)] for a in d.aggressor[members]]))
     return out
-
-
-def _with_fixes(hotspots: list[Hotspot], directed, runs, lookup, board) -> list[Hotspot]:
-    """Attach fix guidance to warn and fail findings of single (or two-line) aggressors."""
-    todo = [h for h in hotspots if h.status != "pass" and h.aggressor_model != "differential (odd mode)"]
-    fixes = fix_guidance(directed, np.array([h.direction for h in todo], dtype=np.int64), runs, lookup, board)
-    return [_replace(h, fix=fixes[h.direction]) if h.direction in fixes else h for h in hotspots]
-
-
-def _with_rank(h: Hotspot, rank: int) -> Hotspot:
-    return _replace(h, rank=rank)
 
 
 def _r(x, digits=3) -> float:
@@ -242,8 +272,12 @@ def _env_summary(e) -> dict:
             "trace_thickness_mm": e.trace_thickness_mm}
 
 
-def _summary(hotspots, victims, runs, keep) -> dict:
+def _summary(noise: Noise, hotspots, victims, runs, keep) -> dict:
     count = {s: sum(1 for v in victims if v.status == s) for s in ("fail", "warn", "pass")}
-    return {"coupled_runs": int(keep.sum()), "coupled_pieces": len(runs.pieces), "hotspots": len(hotspots),
+    alive = noise.alive
+    return {"coupled_runs": int(keep.sum()), "coupled_pieces": len(runs.pieces),
+            "findings": int(alive.sum()), "findings_fail": int((alive & (noise.status == 2)).sum()),
+            "findings_warn": int((alive & (noise.status == 1)).sum()),
+            "hotspots_listed": len(hotspots), "list_floor": LIST_FLOOR,
             "victims": len(victims), "victims_fail": count["fail"], "victims_warn": count["warn"],
             "victims_pass": count["pass"]}

@@ -28,7 +28,7 @@ def inspect_data(board: Board) -> dict:
         } for layer in board.layers],
         "nets": len(board.nets),
         "holes": {"plated": int(board.holes.plated.sum()), "non_plated": int((~board.holes.plated).sum())},
-        "stackup": None if board.stackup is None else [{
+        "stackup": [] if board.stackup is None else [{
             "kind": s.kind, "name": s.name, "thickness_mm": s.thickness_mm, "epsilon_r": s.epsilon_r,
             "copper_index": s.copper_index} for s in board.stackup.layers],
         "stackup_source": None if board.stackup is None else board.stackup.source,

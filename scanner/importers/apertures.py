@@ -3,7 +3,6 @@ from __future__ import annotations
 
 import numpy as np
 import shapely
-from gerbonara import apertures as gap
 from gerbonara import graphic_primitives as gp
 from gerbonara.utils import MM
 

@@ -57,7 +57,7 @@ class GerberImporter:
         classify_planes(layers, [(c.kind_hint, c.hint_source) for c in copper], board_planes, outline)
 
         holes, drill_logs = _holes(files, by_rel, board_cfg, job)
-        netlist = _netlist(files, by_rel, board_cfg, len(layers))
+        netlist = _netlist(files, by_rel, board_cfg)
         for a in artworks:
             if (s := a.log.summary()):
                 warnings.append(s)
@@ -175,7 +175,7 @@ def _holes(files, by_rel, cfg: BoardFile | None, job: JobFile | None):
     return Holes(*(np.concatenate([getattr(h, k) for h in parts]) for k in ("x", "y", "diameter", "plated", "net"))), logs
 
 
-def _netlist(files, by_rel, cfg: BoardFile | None, n_layers: int) -> NetlistRecords | None:
+def _netlist(files, by_rel, cfg: BoardFile | None) -> NetlistRecords | None:
     if cfg is not None and cfg.netlist:
         src = _find(by_rel, cfg.netlist, cfg)
         return read_ipc356(src.path, src.name)

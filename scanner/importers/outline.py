@@ -8,6 +8,7 @@ import shapely
 from gerbonara import graphic_objects as go
 from gerbonara.utils import MM
 
+from scanner.errors import InputError
 from scanner.importers.arcs import flatten_arcs
 from scanner.importers.diagnostics import FileWarnings
 from scanner.importers.gerber_copper import parse_gerber
@@ -29,8 +30,16 @@ def find_profile(gerbers: list[SourceFile], job_functions: dict | None) -> Sourc
 
 
 def read_outline(src: SourceFile) -> tuple[shapely.Geometry | None, FileWarnings]:
-    """Polygon enclosed by the profile's draws (largest ring, inner rings as cut-outs); None if none closes."""
-    gerber, log = parse_gerber(src.path, src.name)
+    """Polygon enclosed by the profile's draws (largest ring, inner rings as cut-outs); None if none closes.
+
+    The outline is optional, so an unreadable profile is a warning, not an error.
+    """
+    try:
+        gerber, log = parse_gerber(src.path, src.name)
+    except InputError as exc:
+        log = FileWarnings(src.name)
+        log.add(f"profile not used: {exc.message}", exc.line)
+        return None, log
     scale = gerber.unit.convert_to(MM, 1.0)
     lines = []
     for obj in gerber.objects:

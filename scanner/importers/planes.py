@@ -5,6 +5,7 @@ import numpy as np
 import shapely
 
 from scanner.board import CopperLayer
+from scanner.netmap import exact_touch
 
 #: a layer whose pours cover more than this share of the board may be a plane ...
 PLANE_FILL_RATIO = 0.4
@@ -37,7 +38,12 @@ def fill_ratio(layer: CopperLayer, area_mm2: float) -> float:
     regions = layer.shapes.geometry[layer.shapes.role == "region"] if len(layer.shapes) else []
     if area_mm2 <= 0 or not len(regions):
         return 0.0
-    return float(shapely.union_all(regions).area / area_mm2)
+    # pours rarely overlap; a union (costly on board-sized outlines) is needed only when they do
+    q, t = shapely.STRtree(regions).query(regions)
+    pairs = q < t
+    overlap = exact_touch(regions[q[pairs]], regions[t[pairs]]).any()
+    covered = shapely.union_all(regions).area if overlap else shapely.area(regions).sum()
+    return float(covered / area_mm2)
 
 
 def classify_planes(layers: list[CopperLayer], hints: list[tuple[str | None, str | None]],

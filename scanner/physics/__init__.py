@@ -4,7 +4,8 @@ Geometry in millimetres (x across, y up from the lower plane), results in SI.
 
 Build a cross-section from a stackup and solve it::
 
-    from scanner.physics import CrossSection, Conductor, Dielectric, solve_cross_section
+    from scanner.physics import (CrossSection, Conductor, Dielectric, Soldermask, solve_cross_section,
+                                 coupling_coefficients)
     section = CrossSection(
         conductors=(Conductor.trace(x_mm=-0.15, y_mm=0.1, width_mm=0.15, thickness_mm=0.035),
                     Conductor.trace(x_mm=+0.15, y_mm=0.1, width_mm=0.15, thickness_mm=0.035)),
@@ -37,8 +38,8 @@ from scanner.physics.closed_form import (cohn_coupled_stripline, cohn_stripline,
                                          kirschning_jansen_coupled, wire_over_ground)
 from scanner.physics.coupling import (WEAK_COUPLING_LIMIT, CouplingTable, coupling_coefficients,
                                       weak_coupling_holds)
-from scanner.physics.crosstalk import (VictimNoise, far_end_peak, near_end_peak, piecewise_peaks, ramp_duration_s,
-                                       saturation_length_m)
+from scanner.physics.crosstalk import (VictimNoise, far_end_peak, far_end_waveform, near_end_peak, near_end_waveform,
+                                       piecewise_peaks, ramp_duration_s, saturation_length_m)
 from scanner.physics.geometry import Conductor, CrossSection, Dielectric, Soldermask, traces_on_layer
 from scanner.physics.matrices import LineMatrices
 from scanner.physics.mesh import DEFAULT_MESH, MeshSettings
@@ -50,6 +51,7 @@ __all__ = [
     "LineMatrices", "solve_cross_section", "MeshSettings", "DEFAULT_MESH", "TOLERANCE",
     "coupling_coefficients", "CouplingTable", "weak_coupling_holds", "WEAK_COUPLING_LIMIT",
     "near_end_peak", "far_end_peak", "piecewise_peaks", "saturation_length_m", "ramp_duration_s", "VictimNoise",
+    "near_end_waveform", "far_end_waveform",
     "simulate_coupled_lines", "LineSection", "CoupledLineResponse",
     "hammerstad_jensen", "kirschning_jansen_coupled", "cohn_stripline", "cohn_coupled_stripline",
     "wire_over_ground",

@@ -7,7 +7,7 @@ from __future__ import annotations
 import numpy as np
 from scipy.special import ellipk, ellipkm1
 
-from scanner.units import C0, EPS0, MU0
+from scanner.units import EPS0, MU0
 
 ETA0 = float(np.sqrt(MU0 / EPS0))  # free-space wave impedance, ohm
 
@@ -124,8 +124,3 @@ def wire_over_ground(radius, height, er=1.0):
     """
     x = np.arccosh(np.asarray(height, dtype=float) / radius)
     return 2 * np.pi * EPS0 * er / x, ETA0 / (2 * np.pi * np.sqrt(er)) * x
-
-
-def velocity_from_eps_eff(eps_eff):
-    """c / sqrt(eps_eff), m/s."""
-    return C0 / np.sqrt(eps_eff)

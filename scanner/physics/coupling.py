@@ -49,8 +49,12 @@ def weak_coupling_holds(kb) -> np.ndarray:
     return np.abs(np.asarray(kb)) <= WEAK_COUPLING_LIMIT
 
 
+def _mm(value) -> float:
+    return round(float(value) / KEY_ROUND_MM) * KEY_ROUND_MM
+
+
 def _key(values) -> tuple[tuple[float, float], ...]:
-    return tuple((round(float(t) / KEY_ROUND_MM) * KEY_ROUND_MM, round(float(er), 9)) for t, er in values)
+    return tuple((_mm(t), round(float(er), 9)) for t, er in values)
 
 
 def _layers(dielectrics) -> list[tuple[float, float]]:
@@ -149,10 +153,9 @@ class CouplingTable:
         height = sum(t for t, _ in below)
         if spacings_mm is None:
             spacings_mm = default_spacings_mm(width_mm, height)
-        spacings = tuple(sorted({round(float(s) / KEY_ROUND_MM) * KEY_ROUND_MM for s in np.ravel(spacings_mm)}))
-        r = KEY_ROUND_MM
-        return _table(below, above, planes, round(width_mm / r) * r, round(thickness_mm / r) * r, mask, spacings,
-                      None if top_width_mm is None else round(top_width_mm / r) * r, mesh)
+        spacings = tuple(sorted({_mm(s) for s in np.ravel(spacings_mm)}))
+        return _table(below, above, planes, _mm(width_mm), _mm(thickness_mm), mask, spacings,
+                      None if top_width_mm is None else _mm(top_width_mm), mesh)
 
 
 def default_spacings_mm(width_mm: float, height_mm: float) -> np.ndarray:

@@ -163,7 +163,3 @@ def piecewise_peaks(kb, kf, length_m, velocity_m_per_s, rise_time_s, swing_v, fa
                       far_end_v=swing_v * oriented.far_end(time_s, ramp_s, gain))
     return VictimNoise(**result)
 
-
-def aggressor_edge(time_s, rise_time_s, swing_v):
-    """The aggressor's incident wave at the driven end: a linear ramp from 0 to swing_v starting at t = 0."""
-    return swing_v * _ramp(np.asarray(time_s, dtype=float), float(ramp_duration_s(rise_time_s)))

@@ -79,8 +79,8 @@ class Conductor:
         if thickness_mm == 0:
             return cls(((x_mm - half, y_mm), (x_mm + half, y_mm)), grounded)
         top_half = half if top_width_mm is None else top_width_mm / 2
-        if not 0 < top_half <= half * 3:
-            raise ValueError(f"trace top width {top_width_mm} mm does not fit a width of {width_mm} mm")
+        if not top_half > 0:
+            raise ValueError(f"trace top width must be positive, got {top_width_mm} mm")
         top = y_mm + thickness_mm
         pts = ((x_mm - half, y_mm), (x_mm + half, y_mm), (x_mm + top_half, top), (x_mm - top_half, top))
         return cls(pts, grounded)

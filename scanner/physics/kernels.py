@@ -21,7 +21,6 @@ value (zero for the panel's own charge).
 from __future__ import annotations
 
 import numpy as np
-from scipy.special import xlogy
 
 _GAUSS = np.array([0.5 - 0.5 / np.sqrt(3), 0.5 + 0.5 / np.sqrt(3)])
 _ON_LINE = 1e-9  # |v| below this fraction of the panel length: the point lies on the panel's line

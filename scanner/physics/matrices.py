@@ -44,9 +44,6 @@ class LineMatrices:
         """(c / v)^2 for line i."""
         return float((C0 / self.velocity(i)) ** 2)
 
-    def delay_s_per_m(self, i: int = 0) -> float:
-        return 1 / self.velocity(i)
-
     def _pair(self):
         if self.count != 2:
             raise ValueError("even and odd modes are defined here for two lines")

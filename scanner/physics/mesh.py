@@ -41,7 +41,8 @@ _CORNER_TURN = np.radians(20.0)  # vertices turning more than this count as sing
 class Panels:
     """Flat panels; the normal is the tangent turned clockwise (outward on counter-clockwise outlines).
 
-    ``owner`` is the conductor index, or -1 for a dielectric interface panel.
+    ``owner`` is the conductor index, or -1 for a dielectric interface panel; conductor
+    panels come first.
     ``er_plus``/``er_minus`` are the permittivities on the normal side and the other side.
     """
 
@@ -205,13 +206,9 @@ def build_panels(section: CrossSection, settings: MeshSettings = DEFAULT_MESH) -
     seg_thin = np.array([seg[3] for seg in segments])
     nodes = sizing.nodes(p0, p1, seg_owner >= 0)
     counts = np.array([len(n) - 1 for n in nodes])
-    starts = [n[:-1] for n in nodes]
-    ends = [n[1:] for n in nodes]
-    owners = [np.repeat(seg_owner, counts)]
-    thin = [np.repeat(seg_thin, counts)]
-
-    start, end = np.concatenate(starts), np.concatenate(ends)
-    owner, is_thin = np.concatenate(owners), np.concatenate(thin)
+    start = np.concatenate([n[:-1] for n in nodes])
+    end = np.concatenate([n[1:] for n in nodes])
+    owner, is_thin = np.repeat(seg_owner, counts), np.repeat(seg_thin, counts)
     mid = (start + end) / 2
     t = (end - start) / np.hypot(*(end - start).T)[:, None]
     normal = np.column_stack([t[:, 1], -t[:, 0]])

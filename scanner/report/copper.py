@@ -62,7 +62,7 @@ def draw_outline(ax, outline, fill: bool = True) -> None:
         return
     path = polygon_path([outline])
     if path is not None:
-        ax.add_patch(PathPatch(path, facecolor=palette.BOARD_FILL if fill else "none", edgecolor="none",
+        ax.add_artist(PathPatch(path, facecolor=palette.BOARD_FILL if fill else "none", edgecolor="none",
                                zorder=Z_BOARD))
     parts = shapely.get_parts(np.asarray([outline], dtype=object))
     kind = shapely.get_type_id(parts)
@@ -88,7 +88,7 @@ def draw_copper(ax, layer: CopperLayer, window: Window, points_per_mm: float) ->
         for mask, colour, z in ((inside & pour, palette.POUR, Z_POUR), (inside & ~pour, palette.PAD, Z_PAD)):
             path = polygon_path(shapes.geometry[mask])
             if path is not None:
-                ax.add_patch(PathPatch(path, facecolor=colour, edgecolor="none", zorder=z, rasterized=raster))
+                ax.add_artist(PathPatch(path, facecolor=colour, edgecolor="none", zorder=z, rasterized=raster))
     if len(segments):
         ax.add_collection(stroke_collection(segments, points_per_mm, palette.TRACE, Z_TRACE, rasterized=raster))
     return drawn

@@ -32,15 +32,15 @@ OVERLAY_DPI = 150
 DETAIL_DPI = 130
 BOARD_VIEW_IN = ((11.0, 8.0), (5.0, 3.5))  # largest and smallest axes box (inches)
 CROP_VIEW_IN = ((8.5, 5.5), (5.5, 3.2))
-#: the worst piece is shaded this many points wider than its traces
-WORST_HALO_PT = 9.0
+#: the worst piece is shaded this many points wider than its pair of traces
+WORST_HALO_PT = 5.0
 
 
 def _save(fig, path: Path, fmt: str, dpi: int) -> Path:
     buf = io.BytesIO()
     with matplotlib.rc_context({"svg.hashsalt": "nearfar", "svg.fonttype": "path"}):
         fig.savefig(buf, format=fmt, dpi=dpi, facecolor=fig.get_facecolor(),
-                    metadata={"Date": None} if fmt == "svg" else {"Software": None})
+                    **({"metadata": {"Date": None}} if fmt == "svg" else {"pil_kwargs": {"compress_level": 1}}))
     return write_atomic(path, buf.getvalue())
 
 
@@ -139,8 +139,8 @@ def crop_figure(result: ScanResult, board: Board, hotspot: Hotspot):
         entries.append((Line2D([], [], color=palette.INK, linewidth=1.1, linestyle=(0, (1, 2))),
                         "run on " + ", ".join(board.layers[k].name for k in others)))
     x0, y0, x1, y1 = hotspot.extent_mm
-    halo = (max(float(p.width_a_mm[rows].max()), float(p.width_b_mm[rows].max())) * 2
-            + float(p.spacing_mean_mm[rows].max())) * canvas.points_per_mm + WORST_HALO_PT
+    halo = float((p.width_a_mm[rows] + p.width_b_mm[rows] + p.spacing_mean_mm[rows]).max()) * canvas.points_per_mm \
+        + WORST_HALO_PT
     colour = palette.STATUS_COLOUR[hotspot.status]
     canvas.ax.plot([x0, x1], [y0, y1], color=colour, alpha=0.28, linewidth=halo, solid_capstyle="butt",
                    zorder=overlay.Z_WORST)

@@ -1,9 +1,11 @@
 """Place rank labels near their markers without overlaps: a deterministic greedy search.
 
 Labels are placed one by one in priority order. Each tries candidate centres on
-rings around its anchor (nearest ring first, diagonal directions before the
-others) and takes the first whose box stays inside the frame and clears every
-marker, every label already placed and the fixed obstacles. When no candidate is
+rings around its anchor (nearest ring first) and takes the first whose box stays
+inside the frame and clears every marker, every label already placed and the
+fixed obstacles. On each ring, directions pointing away from the centre of the
+neighbouring anchors come first (so a cluster's labels fan outwards and leader
+lines seldom cross); a lone anchor prefers the diagonals. When no candidate is
 free the one with the least overlap is taken and flagged. All units are the
 caller's (points in the overlay images); the same input always gives the same layout.
 """
@@ -17,7 +19,9 @@ import numpy as np
 RING_STEPS = (1.6, 2.4, 3.4, 4.6, 6.0, 7.6, 9.4, 11.5, 14.0, 17.0, 21.0)
 #: a candidate leaving the frame counts as this much overlap (area units)
 OUTSIDE_PENALTY = 1e12
-#: candidate directions in order of preference (degrees)
+#: anchors closer than this many label heights count as neighbours when choosing directions
+NEIGHBOUR_STEPS = 6.0
+#: candidate directions, in order of preference for a lone anchor (degrees)
 DIRECTIONS_DEG = (45, 135, 315, 225, 90, 270, 0, 180, 22.5, 157.5, 337.5, 202.5, 67.5, 112.5, 292.5, 247.5)
 
 
@@ -39,6 +43,25 @@ def _overlap_area(cand: np.ndarray, boxes: np.ndarray) -> np.ndarray:
     return (np.clip(w, 0, None) * np.clip(h, 0, None)).sum(axis=1)
 
 
+def _outward_directions(ax: np.ndarray, ay: np.ndarray, reach: np.ndarray) -> np.ndarray:
+    """Per anchor: the angle (radians) from the mean of its neighbours to it, NaN for a lone or central anchor."""
+    dx, dy = ax[:, None] - ax[None, :], ay[:, None] - ay[None, :]
+    near = np.hypot(dx, dy) <= reach[:, None]
+    count = near.sum(axis=1)
+    ox, oy = (dx * near).sum(axis=1) / count, (dy * near).sum(axis=1) / count
+    central = (count < 2) | (np.hypot(ox, oy) < 0.05 * reach)
+    return np.where(central, np.nan, np.arctan2(oy, ox))
+
+
+def _directions_towards(angle: float) -> np.ndarray:
+    """Candidate directions (radians) ordered by closeness to ``angle``, or in the default order for NaN."""
+    theta = np.radians(DIRECTIONS_DEG)
+    if np.isnan(angle):
+        return theta
+    distance = np.abs((theta - angle + np.pi) % (2 * np.pi) - np.pi)
+    return theta[np.argsort(distance, kind="stable")]
+
+
 def place_labels(anchor_x, anchor_y, width, height, frame, marker_radius: float,
                  obstacles: np.ndarray | None = None, gap: float = 1.5) -> LabelLayout:
     """Centres for labels of size ``width`` x ``height`` near their anchors, in the given priority order.
@@ -52,9 +75,10 @@ def place_labels(anchor_x, anchor_y, width, height, frame, marker_radius: float,
     fixed = np.concatenate([markers, np.zeros((0, 4)) if obstacles is None else np.asarray(obstacles, float)])
     placed = np.zeros((n, 4))
     out_x, out_y, crowded = np.zeros(n), np.zeros(n), np.zeros(n, dtype=bool)
-    theta = np.radians(DIRECTIONS_DEG)
     steps = np.asarray(RING_STEPS)
+    preferred = _outward_directions(ax, ay, NEIGHBOUR_STEPS * np.maximum(h, 1e-9))
     for i in range(n):
+        theta = _directions_towards(preferred[i])
         radius = marker_radius + steps[:, None] * h[i]
         # push the box centre out so its near edge, not its centre, sits on the ring
         cx = ax[i] + (radius + 0.5 * w[i] * np.abs(np.cos(theta))) * np.cos(theta)

@@ -25,7 +25,7 @@ from scanner.report.copper import Window, stroke_collection
 from scanner.report.labels import place_labels
 from scanner.report.marks import Mark, RoleTraces
 
-MARGIN_IN = {"left": 0.8, "right": 0.3, "top": 0.5, "bottom": 0.95}
+MARGIN_IN = {"left": 0.8, "right": 0.3, "top": 0.55, "bottom": 0.95}
 LABEL_FONT = FontProperties(family="DejaVu Sans", size=7.5, weight="bold")
 LABEL_PAD_PT = 2.0
 MARKER_RADIUS_PT = 3.5
@@ -186,7 +186,9 @@ def legend(canvas: Canvas, entries: list) -> None:
 
 
 def title(canvas: Canvas, text: str, detail: str = "") -> None:
-    canvas.ax.set_title(text, loc="left", fontsize=10, color=palette.INK, pad=14 if detail else 6)
+    """A heading and a line of detail in the top margin, aligned with the axes' left edge."""
+    fig_h = canvas.figure.get_figheight()
+    left = canvas.ax.get_position().x0
+    canvas.figure.text(left, 1 - 0.2 / fig_h, text, fontsize=10, color=palette.INK, ha="left", va="center")
     if detail:
-        canvas.ax.text(0.0, 1.012, detail, transform=canvas.ax.transAxes, fontsize=7.5, color="#6b6357",
-                       va="bottom", ha="left")
+        canvas.figure.text(left, 1 - 0.38 / fig_h, detail, fontsize=7.5, color="#6b6357", ha="left", va="center")

@@ -16,7 +16,7 @@ from matplotlib.backends.backend_agg import FigureCanvasAgg
 from matplotlib.figure import Figure
 
 from scanner.board import Board
-from scanner.physics.crosstalk import aggressor_edge, piecewise_peaks, ramp_duration_s
+from scanner.physics.crosstalk import piecewise_peaks, ramp_duration_s
 from scanner.report import palette
 from scanner.score import Hotspot, ScanResult
 
@@ -69,15 +69,16 @@ def finding_waveforms(result: ScanResult, board: Board, hotspot: Hotspot) -> Fin
     length_m = runs.pieces.length_mm[rows] * 1e-3
     velocity = coeff.velocity_m_per_s[rows]
     rise_time_s = hotspot.rise_time_ns * 1e-9
+    ramp_s = float(ramp_duration_s(rise_time_s))
     receiver = "high_z" if hotspot.termination == "high-z-receiver" else "matched"
-    time_s = _time_grid(length_m / velocity, float(ramp_duration_s(rise_time_s)))
+    time_s = _time_grid(length_m / velocity, ramp_s)
     noise = piecewise_peaks(coeff.kb[rows], coeff.kf_s_per_m[rows], length_m, velocity, rise_time_s,
                             hotspot.swing_v, far_end_receiver=receiver, waveforms=True, time_s=time_s)
     victim = board.net_id(hotspot.victim)
     net_a, net_b = int(runs.net_a[hotspot.run]), int(runs.net_b[hotspot.run])
     aggressor = board.nets[net_b if net_a == victim else net_a]
-    return FindingWaveforms(time_s, noise.near_end_v, noise.far_end_v,
-                            aggressor_edge(time_s, rise_time_s, hotspot.swing_v), aggressor, receiver)
+    edge_v = hotspot.swing_v * np.clip(time_s / ramp_s, 0.0, 1.0)  # the linear ramp of docs/physics.md §3
+    return FindingWaveforms(time_s, noise.near_end_v, noise.far_end_v, edge_v, aggressor, receiver)
 
 
 def _budget_lines(ax, hotspot: Hotspot) -> list[float]:

@@ -42,4 +42,7 @@ def test_inspect(variant):
     result = CliRunner().invoke(cli, ["inspect", str(DEMO / variant), "--json"])
     assert result.exit_code == 0, result.output
     data = json.loads(result.output)
-    assert len(data["layers"]) == 6 and data["netting"]["shorts"] == []
+    assert len(data["layers"]) == 6 and data["netting"]["shorts"] == [] and data["netting"]["opens"] == []
+    assert [l["kind"] for l in data["layers"]] == ["signal", "plane", "signal", "plane", "plane", "signal"]
+    if variant == "x2":  # the job file's MaterialStackup: 6 copper layers
+        assert sum(s["kind"] == "copper" for s in data["stackup"]) == 6

@@ -2,6 +2,7 @@
 import json
 import subprocess
 import sys
+import zipfile
 
 import pytest
 from click.testing import CliRunner
@@ -28,7 +29,7 @@ def test_json_fields(tmp_path, capsys):
     # top traces: 20 + 20 + 15 + 5 mm
     assert data["layers"][0]["trace_length_mm"] == pytest.approx(60.0)
     assert data["nets"] == 4
-    assert data["stackup"] is None
+    assert data["stackup"] == [] and data["stackup_source"] is None
     n = data["netting"]
     assert (n["netlist_points_matched"], n["netlist_points_total"]) == (4, 4)
     assert n["shorts"] == [] and n["opens"] == [] and 0 < n["netted_trace_fraction"] < 1
@@ -41,9 +42,31 @@ def test_table_output(tmp_path):
     assert "L01" in result.output and "gerber-x2" in result.output and "shorts: 0" in result.output
 
 
+def _no_copper(folder):
+    (folder / "silk-top.gbr").write_text("%FSLAX46Y46*%\n%MOMM*%\nM02*\n")
+    return folder
+
+
+def _truncated(folder):
+    write_board(folder, x2=True)
+    top = folder / "board-top.gbr"
+    top.write_text(top.read_text()[:-20])
+    return folder
+
+
+def _escaping_zip(folder):
+    path = folder / "evil.zip"
+    with zipfile.ZipFile(path, "w") as zf:
+        zf.writestr("../../escape.gbr", "x")
+    return path
+
+
 @pytest.mark.parametrize("make, message", [
     (lambda p: p / "missing", "not found"),
     (lambda p: (p / "x.txt").write_text("hi") and p, "no importer"),
+    (_no_copper, "no copper layers"),
+    (_truncated, "board-top.gbr"),
+    (_escaping_zip, "evil.zip: archive entry"),
 ])
 def test_bad_input_exit_status_2(tmp_path, capsys, make, message):
     target = make(tmp_path)
@@ -71,3 +94,13 @@ def test_subprocess_exit_status_and_no_traceback(tmp_path):
                           capture_output=True, text=True, timeout=120)
     assert proc.returncode == 2
     assert "board.ipc:1:" in proc.stderr and "PARSECS" in proc.stderr and "Traceback" not in proc.stderr
+
+
+def test_errors_survive_parallel_parsing(tmp_path, capsys, monkeypatch):
+    import scanner.importers.gerber as gerber
+
+    folder = _truncated(tmp_path)
+    monkeypatch.setattr(gerber, "PARALLEL_MIN_BYTES", 0)
+    monkeypatch.setenv("NEARFAR_IMPORT_WORKERS", "2")
+    code, _, err = _main(["inspect", str(folder)], capsys)
+    assert code == 2 and "board-top.gbr:" in err and "truncated" in err

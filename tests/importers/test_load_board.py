@@ -123,6 +123,14 @@ def test_outline_from_profile(tmp_path):
     assert len(board.layers) == 2
 
 
+def test_unreadable_profile_is_only_a_warning(tmp_path):
+    folder = write_board(tmp_path, x2=True)
+    (folder / "board-Edge_Cuts.gbr").write_text("%TF.FileFunction,Profile,NP*%\n%FSLAX46Y46*%\n%MOMM*%\nD12*\nM02*\n")
+    board = scanner.load_board(folder)
+    assert board.outline is None
+    assert any("board-Edge_Cuts.gbr" in w and "profile not used" in w for w in board.warnings)
+
+
 def test_missing_folder(tmp_path):
     with pytest.raises(InputError, match="not found"):
         scanner.load_board(tmp_path / "nope")
@@ -179,3 +187,16 @@ def test_registry_prefers_highest_claim(tmp_path, monkeypatch, score, chosen):
             scanner.load_board(folder)
     else:
         assert scanner.load_board(folder).format == "gerber-x2"
+
+
+def test_parallel_parse_matches_serial(tmp_path, monkeypatch):
+    import scanner.importers.gerber as gerber
+
+    folder = write_board(tmp_path, x2=False)
+    monkeypatch.setenv("NEARFAR_IMPORT_WORKERS", "1")
+    serial = scanner.load_board(folder)
+    monkeypatch.setenv("NEARFAR_IMPORT_WORKERS", "2")
+    monkeypatch.setattr(gerber, "PARALLEL_MIN_BYTES", 0)
+    parallel = scanner.load_board(folder)
+    assert_same_segments(serial, parallel)
+    assert serial.nets == parallel.nets and serial.warnings == parallel.warnings

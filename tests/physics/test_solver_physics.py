@@ -4,7 +4,7 @@ from dataclasses import replace
 import numpy as np
 import pytest
 
-from scanner.physics import (DEFAULT_MESH, TOLERANCE, Conductor, CrossSection, Dielectric, Soldermask,
+from scanner.physics import (DEFAULT_MESH, TOLERANCE, Conductor, CrossSection, Soldermask,
                              coupling_coefficients, solve_cross_section, traces_on_layer)
 from scanner.units import C0
 
@@ -152,3 +152,14 @@ def test_offset_stripline_and_unequal_lines():
     kb10, kf10 = coupling_coefficients(m, 1, 0)
     assert kb01 > 0 and kb10 > 0
     assert abs(kf01) * m.velocity(0) < 1e-3 and abs(kf10) * m.velocity(0) < 1e-3
+
+
+def test_strip_on_the_mid_plane_interface_sees_the_mean_permittivity():
+    # zero-thickness strips on the interface of a symmetric two-material stripline: by symmetry the
+    # normal field on the interface vanishes, so C = (er1 + er2)/2 C0 exactly and both modes travel
+    # together (exact, from the mirror symmetry of the vacuum solution)
+    section = traces_on_layer([(0.1, 4.2)], [(0.1, 3.0)], "both", [0.1, 0.1], [0.1], 0.0)
+    m = solve_cross_section(section)
+    assert np.allclose(m.C, 3.6 * m.C0, rtol=1e-6)
+    kb, kf = coupling_coefficients(m, 0, 1)
+    assert abs(kf * m.velocity(0)) < 1e-6 * kb

@@ -67,7 +67,7 @@ def test_many_runs_in_one_call_match_single_calls():
     v = rng.uniform(1.4e8, 1.9e8, n)
     ramp = rng.uniform(0.1e-9, 2e-9, 50)
     swing = rng.uniform(1, 5, 50)
-    batch = run_peaks(kb, kf, ln, v, start, swing, ramp, chunk_pairs=97)
+    batch = run_peaks(kb, kf, ln, v, start, swing, ramp)
     for r in range(50):
         sl = slice(start[r], start[r + 1])
         single = run_peaks(kb[sl], kf[sl], ln[sl], v[sl], np.array([0, counts[r]]), swing[r], ramp[r])

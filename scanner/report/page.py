@@ -1,0 +1,344 @@
+"""report.html: one self-contained page that puts a scan together.
+
+No scripts, no fonts, no style sheets or images from the network: the styles are
+inline and the images are the files beside the page (``scanner.report.images``),
+linked by relative names and only where they exist. All text from the board and
+the rules is escaped. Written atomically, after report.json and hotspots.csv.
+"""
+from __future__ import annotations
+
+import html
+from importlib import metadata
+from pathlib import Path
+
+from scanner.outputs import write_atomic
+from scanner.report import names, palette
+from scanner.score import CAUTION, SCHEMA, Hotspot, ScanResult, VictimTotal
+
+PAGE_FILE = "report.html"
+TABLE_FILES = ("report.json", "hotspots.csv")
+VOID_ELEMENTS = {"img", "meta", "br"}
+
+
+class Markup(str):
+    """Text that is already HTML; everything else is escaped when inserted."""
+
+
+def esc(value) -> Markup:
+    return value if isinstance(value, Markup) else Markup(html.escape("" if value is None else str(value), quote=True))
+
+
+def tag(name: str, content="", **attrs) -> Markup:
+    """An element; attribute names ending in ``_`` lose it (``class_``), ``None`` attributes are left out."""
+    text = "".join(f' {k.rstrip("_")}="{esc(v)}"' for k, v in attrs.items() if v is not None)
+    if name in VOID_ELEMENTS:
+        return Markup(f"<{name}{text}/>")
+    body = "".join(esc(c) for c in content) if isinstance(content, (list, tuple)) else esc(content)
+    return Markup(f"<{name}{text}>{body}</{name}>")
+
+
+def link(href: str, text) -> Markup:
+    return tag("a", text, href=href)
+
+
+def table(headers: list[str], rows: list[list], class_: str | None = None, numeric: set[int] = frozenset(),
+          row_classes: list[str] | None = None) -> Markup:
+    head = tag("thead", tag("tr", [tag("th", h, class_="num" if i in numeric else None) for i, h in enumerate(headers)]))
+    row_classes = row_classes or [None] * len(rows)
+    body = tag("tbody", [tag("tr", [tag("td", c, class_="num" if i in numeric else None) for i, c in enumerate(row)],
+                             class_=rc) for row, rc in zip(rows, row_classes)])
+    return tag("table", [head, body], class_=class_)
+
+
+def facts(pairs: list[tuple[str, object]]) -> Markup:
+    return tag("dl", [Markup(tag("dt", k) + tag("dd", v)) for k, v in pairs], class_="facts")
+
+
+def badge(status: str) -> Markup:
+    return tag("span", status, class_=f"badge st-{status}")
+
+
+def num(value, digits: int = 3) -> str:
+    if value is None:
+        return "–"
+    return f"{value:.{digits}g}" if isinstance(value, float) else str(value)
+
+
+def _style() -> str:
+    s = palette.STATUS_COLOUR
+    t = palette.STATUS_TEXT
+    return f"""
+body {{ font-family: system-ui, -apple-system, "Segoe UI", Roboto, "DejaVu Sans", sans-serif; color: {palette.INK};
+  margin: 0 auto; max-width: 1280px; padding: 0 1.2rem 3rem; line-height: 1.4; }}
+h1 {{ font-size: 1.5rem; margin: 1.2rem 0 0.3rem; }}
+h2 {{ font-size: 1.2rem; margin-top: 2.2rem; border-bottom: 2px solid {palette.POUR}; padding-bottom: 0.2rem; }}
+h3 {{ font-size: 1.02rem; margin: 1.4rem 0 0.4rem; }}
+nav a {{ margin-right: 1rem; }}
+a {{ color: {palette.VICTIM}; }}
+.caution {{ background: #fbf3e2; border-left: 5px solid {s['warn']}; padding: 0.6rem 0.9rem; }}
+.verdict {{ font-size: 1.05rem; }}
+table {{ border-collapse: collapse; font-size: 0.82rem; margin: 0.5rem 0 1rem; }}
+th, td {{ border-bottom: 1px solid #e6e1d7; padding: 0.25rem 0.5rem; text-align: left; vertical-align: top; }}
+th {{ background: {palette.BOARD_FILL}; position: sticky; top: 0; }}
+td.num, th.num {{ text-align: right; font-variant-numeric: tabular-nums; }}
+tr.row-fail td:first-child {{ border-left: 4px solid {s['fail']}; }}
+tr.row-warn td:first-child {{ border-left: 4px solid {s['warn']}; }}
+tr.row-pass td:first-child {{ border-left: 4px solid {s['pass']}; }}
+.badge {{ display: inline-block; border-radius: 0.6rem; padding: 0 0.5rem; font-weight: 600; font-size: 0.78rem; }}
+.st-fail {{ background: {s['fail']}; color: {t['fail']}; }}
+.st-warn {{ background: {s['warn']}; color: {t['warn']}; }}
+.st-pass {{ background: {s['pass']}; color: {t['pass']}; }}
+dl.facts {{ display: grid; grid-template-columns: max-content auto; gap: 0.15rem 1rem; font-size: 0.88rem; }}
+dl.facts dt {{ color: #6b6357; }}
+dl.facts dd {{ margin: 0; }}
+figure {{ margin: 0.8rem 0 1.4rem; }}
+figure img {{ max-width: 100%; height: auto; border: 1px solid #e6e1d7; }}
+figcaption {{ font-size: 0.82rem; color: #6b6357; }}
+.pair {{ display: flex; flex-wrap: wrap; gap: 1rem; }}
+.pair figure {{ flex: 1 1 540px; }}
+.scroll {{ overflow-x: auto; }}
+.muted {{ color: #6b6357; font-size: 0.85rem; }}
+"""
+
+
+class _Folder:
+    """Which report files exist beside the page."""
+
+    def __init__(self, out_dir: Path):
+        self.out_dir = out_dir
+
+    def has(self, name: str) -> bool:
+        return (self.out_dir / name).is_file()
+
+
+def _header(result: ScanResult, folder: _Folder) -> Markup:
+    sm = result.summary
+    status = result.worst_status
+    verdict = tag("p", [badge(status), f" {sm.get('victims', 0)} victims: {sm.get('victims_fail', 0)} over budget, "
+                                       f"{sm.get('victims_warn', 0)} near budget, {sm.get('victims_pass', 0)} within "
+                                       f"budget; {sm.get('hotspots', 0)} findings from {sm.get('coupled_runs', 0)} "
+                                       f"coupled runs."], class_="verdict")
+    files = [link(f, f) for f in TABLE_FILES if folder.has(f)]
+    data = tag("p", ["Data: "] + _joined(files, ", "), class_="muted") if files else Markup("")
+    sections = [("board", "Board"), ("rules", "Rules"), ("maps", "Maps"), ("findings", "Findings"),
+                ("details", "Top findings"), ("victims", "Victims"), ("assumptions", "Assumptions")]
+    return Markup(tag("h1", f"Crosstalk report: {result.board.get('name', '')}") + verdict
+                  + tag("p", [tag("strong", "Caution. "), CAUTION], class_="caution")
+                  + tag("nav", [link(f"#{a}", t) for a, t in sections]) + data)
+
+
+def _joined(items: list[Markup], sep: str) -> list:
+    out: list = []
+    for i, item in enumerate(items):
+        out += ([sep] if i else []) + [item]
+    return out
+
+
+def _board(result: ScanResult) -> Markup:
+    b = result.board
+    netting = b.get("netting")
+    info = [("name", b.get("name")), ("read from", b.get("source")), ("format", b.get("format")),
+            ("nets", b.get("nets")), ("copper layers", len(b.get("layers", [])))]
+    if netting:
+        info += [("nets assigned by", netting.get("method")),
+                 ("trace length with a net", f"{100 * netting.get('netted_trace_fraction', 0):.1f} %"),
+                 ("netlist points matched", f"{netting.get('netlist_points_matched')} of "
+                                            f"{netting.get('netlist_points_total')}"),
+                 ("shorts / opens", f"{netting.get('shorts')} / {netting.get('opens')}")]
+    layers = table(["#", "layer", "side", "kind", "kind from", "segments", "trace length mm"],
+                   [[layer.get("index"), layer.get("name"), layer.get("side"), layer.get("kind"),
+                     layer.get("kind_source"), layer.get("segments"), num(layer.get("trace_length_mm"), 6)]
+                    for layer in b.get("layers", [])], numeric={0, 5, 6})
+    st = result.stackup
+    stack = table(["", "name", "thickness mm", "εr"],
+                  [[s.get("kind"), s.get("name"), num(s.get("thickness_mm")), num(s.get("epsilon_r"))]
+                   for s in st.get("layers", [])], numeric={2, 3})
+    envs = table(["signal layer", "structure", "height to plane mm", "trace thickness mm"],
+                 [[name, e.get("structure"), num(e.get("height_to_plane_mm")), num(e.get("trace_thickness_mm"))]
+                  for name, e in st.get("signal_layers", {}).items()], numeric={2, 3})
+    warnings = tag("ul", [tag("li", w) for w in result.warnings]) if result.warnings else tag("p", "None.")
+    return Markup(tag("h2", "Board", id="board") + facts(info) + tag("h3", "Copper layers") + layers
+                  + tag("h3", f"Stackup (from {st.get('source', 'unknown')})") + stack
+                  + tag("h3", "Scanned layers") + envs
+                  + tag("h3", f"Warnings ({len(result.warnings)})") + warnings)
+
+
+def _budget_text(c: dict, kind: str) -> str:
+    mv = c.get(f"{kind}_budget_mv")
+    if mv is not None:
+        return f"{mv:g} mV"
+    pct = c.get(f"{kind}_budget_pct")
+    return "none" if pct is None else f"{pct:g} %"
+
+
+def _rules(result: ScanResult) -> Markup:
+    r, s = result.rules, result.settings
+    settings = [(k.replace("_", " "), v) for k, v in s.items()]
+    scan = [(k.replace("_", " "), v) for k, v in r.get("scan", {}).items() if k not in s]
+    classes = r.get("classes", []) + ([r["default_class"]] if r.get("default_class") else [])
+    class_rows = [[c.get("name"), ", ".join(c.get("patterns", [])), num(c.get("rise_time_ns")), num(c.get("swing_v")),
+                   _budget_text(c, "next"), _budget_text(c, "fext"), c.get("termination")] for c in classes]
+    pairs = r.get("diff_pairs") or []
+    extra = [("power and ground nets (patterns)", ", ".join(r.get("power_patterns", [])) or "none"),
+             ("differential pairs (explicit)", "; ".join(" / ".join(map(str, p)) for p in pairs) or "none"),
+             ("planes named in the rules", ", ".join(r.get("planes", [])) or "none")]
+    return Markup(tag("h2", "Rules and defaults in force", id="rules")
+                  + tag("p", f"Rules from: {r.get('source', 'defaults')}", class_="muted")
+                  + facts(settings + scan) + tag("h3", "Net classes")
+                  + table(["class", "nets", "rise time ns", "swing V", "NEXT budget", "FEXT budget", "victim ends"],
+                          class_rows, numeric={2, 3})
+                  + facts(extra))
+
+
+def _maps(result: ScanResult, folder: _Folder) -> Markup:
+    stems = names.layer_stems([layer["name"] for layer in result.board.get("layers", [])])
+    parts = [tag("h2", "Where the findings are", id="maps"),
+             tag("p", "Findings over budget and near budget are all drawn, passing ones only among the first "
+                      "ranks. Labels give ranks in the findings table; a label with two ranks is one run scored "
+                      "in both directions. Click an image for the scalable version.", class_="muted")]
+    for stem, caption in [(names.COMPOSITE_STEM, "All layers: marker shape gives the side of the finding's main "
+                                                "layer.")] + [(st, f"Layer {name}: copper, victim and aggressor "
+                                                                   f"traces, findings.") for name, st in stems.items()]:
+        if folder.has(f"{stem}.png"):
+            img = tag("img", src=f"{stem}.png", alt=caption)
+            body = link(f"{stem}.svg", img) if folder.has(f"{stem}.svg") else img
+            parts.append(tag("figure", [body, tag("figcaption", caption)], id=stem))
+    if len(parts) == 2:
+        parts.append(tag("p", "No images were written."))
+    return Markup("".join(parts))
+
+
+def _fix_text(h: Hotspot) -> str:
+    fix = h.fix or {}
+    out = []
+    if fix.get("spacing_needed_mm") is not None:
+        out.append(f"spacing ≥ {fix['spacing_needed_mm']:.3g} mm")
+    if fix.get("max_length_mm") is not None:
+        out.append(f"length ≤ {fix['max_length_mm']:.3g} mm")
+    layer = (fix.get("alternative_layer") or {}).get("layer")
+    if layer:
+        out.append(f"move to {layer}")
+    return " or ".join(out)
+
+
+def _views(h: Hotspot, folder: _Folder, stems: dict[str, str]) -> list:
+    views = [link(target, text) for target, text in ((names.crop_file(h.rank), "crop"),
+                                                      (names.wave_file(h.rank), "waveform"),
+                                                      (f"{stems.get(h.layer, '')}.png", "layer map"))
+             if folder.has(target)]
+    return _joined(views, " · ")
+
+
+def _findings(result: ScanResult, folder: _Folder) -> Markup:
+    stems = names.layer_stems([layer["name"] for layer in result.board.get("layers", [])])
+    rows, classes = [], []
+    for h in result.hotspots:
+        detail = folder.has(names.crop_file(h.rank)) or folder.has(names.wave_file(h.rank))
+        rank = link(f"#finding-{h.rank}", str(h.rank)) if detail else str(h.rank)
+        rows.append([rank, badge(h.status), h.victim, h.aggressor, f"{h.victim_class} / {h.aggressor_class}",
+                     "+".join(h.layers), h.structure, num(h.coupled_length_mm, 4), num(h.min_spacing_mm),
+                     f"{h.next_mv:.4g} ({h.next_pct:.3g} %)", f"{h.fext_mv:.4g} ({h.fext_pct:.3g} %)",
+                     f"{h.next_budget_mv:.4g} / {h.fext_budget_mv:.4g}", f"{100 * h.budget_used:.0f} %",
+                     f"{h.x_mm:.2f}, {h.y_mm:.2f}", _fix_text(h), _views(h, folder, stems)])
+        classes.append(f"row-{h.status}")
+    headers = ["#", "status", "victim", "aggressor", "classes (victim / aggressor)", "layers", "structure",
+               "coupled mm", "min spacing mm", "NEXT mV (% of swing)", "FEXT mV (% of swing)",
+               "budget mV (NEXT / FEXT)", "budget used", "at x, y mm", "suggested fix", "views"]
+    body = table(headers, rows, class_="findings", numeric={0, 7, 8, 9, 10, 11, 12}, row_classes=classes)
+    return Markup(tag("h2", f"Findings, worst first ({len(result.hotspots)})", id="findings")
+                  + tag("p", "One row per aggressor and victim on one coupled run; both directions of a run are "
+                             "listed. Location: middle of the run's worst stretch, board coordinates seen from "
+                             "the top.", class_="muted")
+                  + tag("div", body, class_="scroll"))
+
+
+def _details(result: ScanResult, folder: _Folder) -> Markup:
+    parts = [tag("h2", "Top findings", id="details")]
+    for h in result.hotspots:
+        crop, wave = names.crop_file(h.rank), names.wave_file(h.rank)
+        if not (folder.has(crop) or folder.has(wave)):
+            continue
+        figures = [tag("figure", [link(f, tag("img", src=f, alt=alt)), tag("figcaption", alt)])
+                   for f, alt in ((crop, f"Finding {h.rank} on layer {h.layer}: victim and aggressor traces, worst "
+                                         f"stretch shaded."),
+                                  (wave, f"Finding {h.rank}: predicted victim noise against time, budget band and "
+                                         f"aggressor edge."))
+                   if folder.has(f)]
+        info = facts([("status", badge(h.status)), ("aggressor model", h.aggressor_model),
+                      ("edge", f"{h.rise_time_ns:g} ns 10–90 %, {h.swing_v:g} V"),
+                      ("victim ends", h.termination), ("largest Kb", num(h.kb_max)),
+                      ("strong coupling", "yes: weak-coupling figures are less accurate" if h.strong_coupling
+                       else "no")])
+        parts.append(tag("section", [tag("h3", f"#{h.rank} {h.victim} ← {h.aggressor} on {'+'.join(h.layers)}"),
+                                     info, tag("div", figures, class_="pair")], id=f"finding-{h.rank}"))
+    if len(parts) == 1:
+        parts.append(tag("p", "No detail images were written."))
+    return Markup("".join(parts))
+
+
+def _victims(victims: list[VictimTotal]) -> Markup:
+    rows = []
+    for v in victims:
+        aggressors = list(dict.fromkeys(v.aggressors))
+        rows.append([v.net, v.net_class, badge(v.status), f"{v.next_worst_mv:.4g} ({v.next_worst_pct:.3g} %)",
+                     f"{v.fext_worst_mv:.4g} ({v.fext_worst_pct:.3g} %)", f"{v.next_rss_pct:.3g} / {v.fext_rss_pct:.3g}",
+                     f"{v.next_budget_mv:.4g} / {v.fext_budget_mv:.4g}", f"{100 * v.budget_used:.0f} %",
+                     ", ".join(aggressors)])
+    return Markup(tag("h2", f"Victims, all aggressors together ({len(victims)})", id="victims")
+                  + tag("p", "Worst case: peak magnitudes added; RSS: root-sum-square. The budget check uses the "
+                             "basis named in the rules.", class_="muted")
+                  + tag("div", table(["victim", "class", "status", "NEXT worst case mV (%)", "FEXT worst case mV (%)",
+                                      "RSS % (NEXT / FEXT)", "budget mV (NEXT / FEXT)", "budget used", "aggressors"],
+                                     rows, numeric={3, 4, 5, 6, 7}), class_="scroll"))
+
+
+def _assumptions(result: ScanResult) -> Markup:
+    s = result.settings
+    items = [
+        "Per-unit-length coupling comes from a 2D quasi-static cross-section solve of each scanned layer in its "
+        "stackup, interpolated over spacing; lines are lossless.",
+        "Noise follows the weak-coupling model: the near end sees the backward coefficient times the edge, the far "
+        "end the forward coefficient times the coupled length times the edge's slope.",
+        "The aggressor edge is a linear ramp of the class swing; its full duration is the 10–90 % rise time "
+        "divided by 0.8. The aggressor is matched at its driver.",
+        "The victim's near end is matched; its far end is matched or a high-impedance receiver, where the far-end "
+        "noise doubles (class termination).",
+        "A run that changes spacing or layer is a chain of pieces; the near-end figure is the peak of the summed "
+        "waveform, for the worse of the two driver positions.",
+        f"Traces count as coupled where their edges come within {s.get('search_distance_mm')} mm "
+        f"({s.get('search_distance_source')}) and run within {s.get('angle_tolerance_deg')}° of parallel; runs "
+        f"shorter than {s.get('min_coupled_length_mm')} mm are left out; a gap over {s.get('run_gap_mm')} mm starts a "
+        "new run.",
+        f"Victim totals add aggressors by the {s.get('budget_basis')} basis; differential aggressors are modelled as "
+        f"{s.get('differential_aggressor')}.",
+        "Findings with a largest backward coefficient over 0.1 are marked as strong coupling: there the weak-coupling "
+        "estimate is rougher.",
+    ]
+    if result.stackup.get("source") == "default":
+        items.insert(0, "No stackup came with the board or the rules: an assumed evenly spaced build was used, so "
+                        "every figure here is provisional.")
+    return Markup(tag("h2", "Assumptions", id="assumptions") + tag("ul", [tag("li", i) for i in items])
+                  + tag("p", [tag("strong", "Caution. "), CAUTION], class_="caution"))
+
+
+def _version() -> str:
+    try:
+        return metadata.version("nearfar")
+    except metadata.PackageNotFoundError:
+        return "unknown"
+
+
+def render_page(result: ScanResult, out_dir: str | Path) -> str:
+    """The page's HTML; links only to files that exist in ``out_dir``."""
+    folder = _Folder(Path(out_dir))
+    body = (_header(result, folder) + _board(result) + _rules(result) + _maps(result, folder)
+            + _findings(result, folder) + _details(result, folder) + _victims(result.victims) + _assumptions(result)
+            + tag("footer", f"nearfar {_version()}; data schema {SCHEMA}.", class_="muted"))
+    head = Markup(tag("meta", charset="utf-8") + tag("meta", name="viewport", content="width=device-width, initial-scale=1")
+                  + tag("title", f"Crosstalk report: {result.board.get('name', '')}") + tag("style", Markup(_style())))
+    return "<!DOCTYPE html>\n" + tag("html", [tag("head", head), tag("body", body)], lang="en") + "\n"
+
+
+def write_page(result: ScanResult, out_dir: str | Path) -> Path:
+    """Write report.html into ``out_dir`` (atomically)."""
+    return write_atomic(Path(out_dir) / PAGE_FILE, render_page(result, out_dir))
