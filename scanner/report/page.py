@@ -21,20 +21,26 @@ VOID_ELEMENTS = {"img", "meta", "br"}
 
 
 class Markup(str):
-    """Text that is already HTML; everything else is escaped when inserted."""
+    """Text that is already HTML; everything else is escaped when inserted or added to it."""
+
+    def __add__(self, other) -> "Markup":
+        return Markup(str.__add__(self, esc(other)))
+
+    def __radd__(self, other) -> "Markup":
+        return Markup(str.__add__(esc(other), self))
 
 
 def esc(value) -> Markup:
     return value if isinstance(value, Markup) else Markup(html.escape("" if value is None else str(value), quote=True))
 
 
-def tag(name: str, content="", **attrs) -> Markup:
+def tag(element: str, content="", /, **attrs) -> Markup:
     """An element; attribute names ending in ``_`` lose it (``class_``), ``None`` attributes are left out."""
     text = "".join(f' {k.rstrip("_")}="{esc(v)}"' for k, v in attrs.items() if v is not None)
-    if name in VOID_ELEMENTS:
-        return Markup(f"<{name}{text}/>")
+    if element in VOID_ELEMENTS:
+        return Markup(f"<{element}{text}/>")
     body = "".join(esc(c) for c in content) if isinstance(content, (list, tuple)) else esc(content)
-    return Markup(f"<{name}{text}>{body}</{name}>")
+    return Markup(f"<{element}{text}>{body}</{element}>")
 
 
 def link(href: str, text) -> Markup:
@@ -114,10 +120,11 @@ class _Folder:
 def _header(result: ScanResult, folder: _Folder) -> Markup:
     sm = result.summary
     status = result.worst_status
+    findings = sm.get("findings", len(result.hotspots))
     verdict = tag("p", [badge(status), f" {sm.get('victims', 0)} victims: {sm.get('victims_fail', 0)} over budget, "
                                        f"{sm.get('victims_warn', 0)} near budget, {sm.get('victims_pass', 0)} within "
-                                       f"budget; {sm.get('hotspots', 0)} findings from {sm.get('coupled_runs', 0)} "
-                                       f"coupled runs."], class_="verdict")
+                                       f"budget; {findings} findings from {sm.get('coupled_runs', 0)} coupled runs, "
+                                       f"{len(result.hotspots)} listed."], class_="verdict")
     files = [link(f, f) for f in TABLE_FILES if folder.has(f)]
     data = tag("p", ["Data: "] + _joined(files, ", "), class_="muted") if files else Markup("")
     sections = [("board", "Board"), ("rules", "Rules"), ("maps", "Maps"), ("findings", "Findings"),
@@ -221,6 +228,13 @@ def _fix_text(h: Hotspot) -> str:
     return " or ".join(out)
 
 
+def _floor_note(result: ScanResult) -> str:
+    floor = result.summary.get("list_floor")
+    if floor is None:
+        return ""
+    return f" Findings using less than {100 * floor:g} % of their budget are counted in the totals but not listed."
+
+
 def _views(h: Hotspot, folder: _Folder, stems: dict[str, str]) -> list:
     views = [link(target, text) for target, text in ((names.crop_file(h.rank), "crop"),
                                                       (names.wave_file(h.rank), "waveform"),
@@ -247,8 +261,8 @@ def _findings(result: ScanResult, folder: _Folder) -> Markup:
     body = table(headers, rows, class_="findings", numeric={0, 7, 8, 9, 10, 11, 12}, row_classes=classes)
     return Markup(tag("h2", f"Findings, worst first ({len(result.hotspots)})", id="findings")
                   + tag("p", "One row per aggressor and victim on one coupled run; both directions of a run are "
-                             "listed. Location: middle of the run's worst stretch, board coordinates seen from "
-                             "the top.", class_="muted")
+                             f"listed.{_floor_note(result)} Location: middle of the run's worst stretch, board "
+                             "coordinates seen from the top.", class_="muted")
                   + tag("div", body, class_="scroll"))
 
 
@@ -336,7 +350,7 @@ def render_page(result: ScanResult, out_dir: str | Path) -> str:
             + tag("footer", f"nearfar {_version()}; data schema {SCHEMA}.", class_="muted"))
     head = Markup(tag("meta", charset="utf-8") + tag("meta", name="viewport", content="width=device-width, initial-scale=1")
                   + tag("title", f"Crosstalk report: {result.board.get('name', '')}") + tag("style", Markup(_style())))
-    return "<!DOCTYPE html>\n" + tag("html", [tag("head", head), tag("body", body)], lang="en") + "\n"
+    return Markup("<!DOCTYPE html>\n") + tag("html", [tag("head", head), tag("body", body)], lang="en") + "\n"
 
 
 def write_page(result: ScanResult, out_dir: str | Path) -> Path:

@@ -3,6 +3,8 @@ from __future__ import annotations
 
 from pathlib import Path
 
+import numpy as np
+
 
 def _c(v: float) -> str:
     return str(int(round(v * 1e6)))
@@ -138,6 +140,23 @@ def write_board(folder: Path, x2: bool, netlist: bool | None = None, top=None, b
     (folder / "board-bottom.gbr").write_text(gerber_text(bottom or BOTTOM, "Copper,L2,Bot,Mixed", x2))
     (folder / "board-PTH.drl").write_text(excellon_text(PLATED, True if x2 else None))
     (folder / "board-NPTH.drl").write_text(excellon_text(NON_PLATED, False if x2 else None))
-    if netlist if netlist is not None else not x2:
+    with_netlist = (not x2) if netlist is None else netlist
+    if with_netlist:
         (folder / "board.ipc").write_text(ipc356_text(netlist_lines or NETLIST))
     return folder
+
+
+# --- comparing boards -------------------------------------------------------------------------
+
+def segment_rows(board, layer):
+    s = layer.segments
+    names = np.array(board.nets + [None], dtype=object)[np.where(s.net >= 0, s.net, -1)]
+    return sorted(zip(*(np.round(v, 4) for v in (s.x0, s.y0, s.x1, s.y1, s.width)), names))
+
+
+def assert_same_segments(a, b):
+    for la, lb in zip(a.layers, b.layers, strict=True):
+        ra, rb = segment_rows(a, la), segment_rows(b, lb)
+        assert len(ra) == len(rb)
+        for p, q in zip(ra, rb):
+            assert np.allclose(p[:5], q[:5], atol=1e-4) and p[5] == q[5]

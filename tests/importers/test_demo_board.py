@@ -8,7 +8,7 @@ from click.testing import CliRunner
 import scanner
 from scanner.cli import cli
 
-from test_load_board import assert_same_segments
+from artwork import assert_same_segments
 
 DEMO = Path(__file__).resolve().parents[2] / "fixtures" / "demo-board"
 

@@ -8,21 +8,7 @@ from scanner.errors import InputError
 from scanner.importers import registry
 from scanner.netmap import is_synthetic
 
-from artwork import BOTTOM, NETLIST, TOP, ipc356_point, write_board
-
-
-def segment_rows(board, layer):
-    s = layer.segments
-    names = np.array(board.nets + [None], dtype=object)[np.where(s.net >= 0, s.net, -1)]
-    return sorted(zip(*(np.round(v, 4) for v in (s.x0, s.y0, s.x1, s.y1, s.width)), names))
-
-
-def assert_same_segments(a, b):
-    for la, lb in zip(a.layers, b.layers, strict=True):
-        ra, rb = segment_rows(a, la), segment_rows(b, lb)
-        assert len(ra) == len(rb)
-        for p, q in zip(ra, rb):
-            assert np.allclose(p[:5], q[:5], atol=1e-4) and p[5] == q[5]
+from artwork import BOTTOM, NETLIST, TOP, assert_same_segments, ipc356_point, write_board
 
 
 def test_x2_and_x1_agree(tmp_path):

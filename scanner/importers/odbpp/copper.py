@@ -56,8 +56,8 @@ def _draw_widths(table: FeatureTable, sym: np.ndarray, dx: np.ndarray, dy: np.nd
     return width
 
 
-def _draws(table: FeatureTable) -> dict[str, np.ndarray]:
-    """Lines and arc pieces as one set of draws, each keeping the feature it came from."""
+def draw_pieces(table: FeatureTable) -> dict[str, np.ndarray]:
+    """Lines and flattened arc pieces as one set of straight draws, each keeping its feature and symbol."""
     ln, ar = table.lines, table.arcs
     parts = {"feature": [ln["feature"]], "x0": [ln["xs"]], "y0": [ln["ys"]], "x1": [ln["xe"]], "y1": [ln["ye"]],
              "sym": [ln["sym"]]}
@@ -69,9 +69,7 @@ def _draws(table: FeatureTable) -> dict[str, np.ndarray]:
         for key, value in (("feature", ar["feature"][owner]), ("x0", px[starts]), ("y0", py[starts]),
                            ("x1", px[starts + 1]), ("y1", py[starts + 1]), ("sym", ar["sym"][owner])):
             parts[key].append(value)
-    draws = {k: np.concatenate(v) for k, v in parts.items()}
-    draws["width"] = _draw_widths(table, draws["sym"], draws["x1"] - draws["x0"], draws["y1"] - draws["y0"])
-    return draws
+    return {k: np.concatenate(v) for k, v in parts.items()}
 
 
 def _pad_shapes(table: FeatureTable, feature, x, y, sym, rotation, mirror, scale) -> np.ndarray:
@@ -87,7 +85,8 @@ def _pad_shapes(table: FeatureTable, feature, x, y, sym, rotation, mirror, scale
 
 def layer_artwork(table: FeatureTable, nets: np.ndarray, via: np.ndarray) -> LayerArtwork:
     """Segments and shapes of one features file; ``nets``/``via`` are per feature (from the EDA links)."""
-    draws = _draws(table)
+    draws = draw_pieces(table)
+    draws["width"] = _draw_widths(table, draws["sym"], draws["x1"] - draws["x0"], draws["y1"] - draws["y0"])
     positive = table.positive
     f = draws["feature"]
     zero = np.hypot(draws["x1"] - draws["x0"], draws["y1"] - draws["y0"]) < ZERO_LENGTH_MM

@@ -252,6 +252,8 @@ def parse_features(src: JobFile, default_units: str | None, resolve_symbol, keep
         ref = p.symbol_refs[k]
         size_units = {"I": "INCH", "M": "MM"}.get(ref.units, units)
         symbols[k] = resolve_symbol(ref.name, UNITS[size_units][1], src, ref.line)
+        if symbols[k].approximate:
+            p.log.add(f"symbol {ref.name!r} is of a kind nearfar does not model; drawn as its bounding box", ref.line)
 
     def arrays(columns: dict, coords: tuple[str, ...]) -> dict[str, np.ndarray]:
         out = {k: np.asarray(v) for k, v in columns.items()}

@@ -24,7 +24,19 @@ class JobFile:
     name: str
 
     def child(self, *parts: str) -> "JobFile":
-        return JobFile(self.path.joinpath(*parts), "/".join([self.name.rstrip("/"), *parts]))
+        sep = "" if self.name.endswith(("/", "!")) or not self.name else "/"
+        return JobFile(self.path.joinpath(*parts), self.name + sep + "/".join(parts))
+
+    def find(self, name: str) -> "JobFile":
+        """The entry ``name`` in this folder, matched without regard to case (ODB++ names are case-insensitive)."""
+        exact = self.child(name)
+        if exact.path.exists() or not self.path.is_dir():
+            return exact
+        low = name.lower()
+        for entry in sorted(self.path.iterdir()):
+            if entry.name.lower() == low:
+                return self.child(entry.name)
+        return exact
 
 
 def read_lines(src: JobFile, what: str) -> list[str]:
