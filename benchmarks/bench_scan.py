@@ -11,6 +11,10 @@ memory (ru_maxrss) is its own.
 """
 from __future__ import annotations
 
+import os
+
+os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")  # as the nearfar command does, before numpy loads
+
 import resource
 import subprocess
 import sys

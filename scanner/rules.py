@@ -156,6 +156,13 @@ def _match(name: str, pattern: str) -> bool:
     return fnmatch.fnmatchcase(name.upper(), pattern.upper())
 
 
+def _compile(patterns) -> re.Pattern:
+    """One regular expression matching an upper-cased name against any of the wildcard patterns."""
+    if not patterns:
+        return re.compile(r"(?!)")
+    return re.compile("|".join(f"(?:{fnmatch.translate(p.upper())})" for p in patterns))
+
+
 # --------------------------------------------------------------------------- net roles
 
 
@@ -174,12 +181,17 @@ def assign_roles(net_names: list[str], rules: Rules, plane_nets: set[str] = froz
     """Classify nets: class, power/ground (inactive), differential partner."""
     classes = tuple(rules.classes) + (DEFAULT_CLASS,)
     n = len(net_names)
-    class_index = np.empty(n, dtype=np.int32)
+    class_rx = [_compile(c.patterns) for c in rules.classes]
+    power_rx = _compile(rules.power_patterns)
+    class_index = np.full(n, len(classes) - 1, dtype=np.int32)
     active = np.ones(n, dtype=bool)
     for i, name in enumerate(net_names):
-        cls = rules.class_of(name)
-        class_index[i] = classes.index(cls)
-        if rules.is_power(name) or name in plane_nets:
+        upper = name.upper()
+        for k, rx in enumerate(class_rx):
+            if rx.match(upper):
+                class_index[i] = k
+                break
+        if power_rx.match(upper) or name in plane_nets:
             active[i] = False
     partner = np.full(n, -1, dtype=np.int32)
     polarity = np.zeros(n, dtype=np.int8)

@@ -71,8 +71,7 @@ def run_scan(board: Board, rules: Rules | None = None, progress: Progress | None
     noise = _score(rules, roles, directed, runs, kb, kf, velocity)
     listed = _listed(noise, board, rules)
     fixes = fix_guidance(directed, listed[noise.status[listed] > 0], runs, lookup, board)
-    hotspots = [_hotspot(board, roles, envs, runs, directed, noise, int(j), rank, fixes.get(int(j)))
-                for rank, j in enumerate(listed, 1)]
+    hotspots = _hotspots(board, roles, envs, runs, directed, noise, listed, fixes)
     victims = _victim_totals(board, rules, roles, directed, noise)
     geometric = check_geometric_limits(rules, roles, runs, board)
 
@@ -175,38 +174,59 @@ def _listed(noise: Noise, board: Board, rules: Rules) -> np.ndarray:
     return candidates[np.argsort(-noise.used[candidates], kind="stable")]
 
 
-def _hotspot(board, roles, envs, runs, d: DirectedRuns, noise: Noise, j, rank, fix) -> Hotspot:
-    r, aggressor, victim = int(d.run[j]), int(d.aggressor[j]), int(d.victim[j])
-    agg_cls = roles.classes[roles.class_index[aggressor]]
-    vic_cls = roles.classes[roles.class_index[victim]]
-    layer_ids = runs.layers_of(r)
-    structures = {envs[i].structure for i in layer_ids}
-    next_v, fext_v, used, kb_max = (float(noise.next_v[j]), float(noise.fext_v[j]), float(noise.used[j]),
-                                    float(noise.kb_max[j]))
-    aggressor_name = board.nets[aggressor]
-    model = "single"
-    if roles.partner[aggressor] >= 0:
-        model = "differential (two lines)"
-        if noise.odd_mode[j]:
-            model = "differential (odd mode)"
-            aggressor_name = f"{aggressor_name} / {board.nets[int(roles.partner[aggressor])]}"
-    return Hotspot(
-        rank=rank, status=STATUS_NAMES[int(noise.status[j])],
-        victim=board.nets[victim], aggressor=aggressor_name,
-        victim_class=vic_cls.name, aggressor_class=agg_cls.name, aggressor_model=model,
-        layer=board.layers[int(runs.main_layer[r])].name, layers=[board.layers[i].name for i in layer_ids],
-        structure=structures.pop() if len(structures) == 1 else "mixed",
-        coupled_length_mm=_r(runs.coupled_length_mm[r]), min_spacing_mm=_r(runs.spacing_min_mm[r], 4),
-        mean_spacing_mm=_r(runs.spacing_mean_mm[r], 4),
-        x_mm=_r(runs.worst_x_mm[r]), y_mm=_r(runs.worst_y_mm[r]),
-        extent_mm=[_r(runs.worst_x0_mm[r]), _r(runs.worst_y0_mm[r]), _r(runs.worst_x1_mm[r]), _r(runs.worst_y1_mm[r])],
-        bbox_mm=[_r(runs.x_min_mm[r]), _r(runs.y_min_mm[r]), _r(runs.x_max_mm[r]), _r(runs.y_max_mm[r])],
-        next_mv=_r(next_v * 1e3), fext_mv=_r(fext_v * 1e3),
-        next_pct=_r(100 * next_v / vic_cls.swing_v), fext_pct=_r(100 * fext_v / vic_cls.swing_v),
-        next_budget_mv=_r(d.next_budget_v[j] * 1e3), fext_budget_mv=_r(d.fext_budget_v[j] * 1e3),
-        budget_used=_r(used, 4), kb_max=_r(kb_max, 5),
-        strong_coupling=kb_max > STRONG_KB, rise_time_ns=agg_cls.rise_time_ns, swing_v=agg_cls.swing_v,
-        termination=vic_cls.termination, victim_swing_v=vic_cls.swing_v, run=r, direction=j, fix=fix)
+def _hotspots(board, roles: NetRoles, envs, runs: CoupledRuns, d: DirectedRuns, noise: Noise,
+              listed: np.ndarray, fixes: dict) -> list[Hotspot]:
+    """Hotspot records for the listed directed runs, ranked in the given order (columns built in numpy)."""
+    j = listed
+    r = d.run[j]
+    agg, vic = d.aggressor[j], d.victim[j]
+    classes = roles.classes
+    agg_c, vic_c = roles.class_index[agg], roles.class_index[vic]
+    vic_swing = np.array([c.swing_v for c in classes])[vic_c]
+
+    def col(values, digits=3):
+        return np.round(np.asarray(values, dtype=float), digits).tolist()
+
+    layer_text = {}
+    for mask in np.unique(runs.layer_mask[r]):
+        ids = [k for k in range(int(mask).bit_length()) if int(mask) >> k & 1]
+        kinds = {envs[k].structure for k in ids}
+        layer_text[int(mask)] = ([board.layers[k].name for k in ids], kinds.pop() if len(kinds) == 1 else "mixed")
+    partner = roles.partner[agg]
+    odd = noise.odd_mode[j]
+    model = np.where(partner < 0, "single", np.where(odd, "differential (odd mode)", "differential (two lines)"))
+    names = board.nets
+    columns = dict(
+        coupled_length_mm=col(runs.coupled_length_mm[r]), min_spacing_mm=col(runs.spacing_min_mm[r], 4),
+        mean_spacing_mm=col(runs.spacing_mean_mm[r], 4), x_mm=col(runs.worst_x_mm[r]), y_mm=col(runs.worst_y_mm[r]),
+        x0=col(runs.worst_x0_mm[r]), y0=col(runs.worst_y0_mm[r]), x1=col(runs.worst_x1_mm[r]),
+        y1=col(runs.worst_y1_mm[r]), bx0=col(runs.x_min_mm[r]), by0=col(runs.y_min_mm[r]),
+        bx1=col(runs.x_max_mm[r]), by1=col(runs.y_max_mm[r]),
+        next_mv=col(noise.next_v[j] * 1e3), fext_mv=col(noise.fext_v[j] * 1e3),
+        next_pct=col(100 * noise.next_v[j] / vic_swing), fext_pct=col(100 * noise.fext_v[j] / vic_swing),
+        next_budget_mv=col(d.next_budget_v[j] * 1e3), fext_budget_mv=col(d.fext_budget_v[j] * 1e3),
+        budget_used=col(noise.used[j], 4), kb_max=col(noise.kb_max[j], 5),
+    )
+    out = []
+    for i, (jj, rr) in enumerate(zip(j.tolist(), r.tolist())):
+        a, v = int(agg[i]), int(vic[i])
+        ac, vc = classes[agg_c[i]], classes[vic_c[i]]
+        layers, structure = layer_text[int(runs.layer_mask[rr])]
+        c = {k: values[i] for k, values in columns.items()}
+        aggressor_name = names[a] if not odd[i] else f"{names[a]} / {names[int(partner[i])]}"
+        out.append(Hotspot(
+            rank=i + 1, status=STATUS_NAMES[int(noise.status[jj])], victim=names[v], aggressor=aggressor_name,
+            victim_class=vc.name, aggressor_class=ac.name, aggressor_model=str(model[i]),
+            layer=board.layers[int(runs.main_layer[rr])].name, layers=layers, structure=structure,
+            coupled_length_mm=c["coupled_length_mm"], min_spacing_mm=c["min_spacing_mm"],
+            mean_spacing_mm=c["mean_spacing_mm"], x_mm=c["x_mm"], y_mm=c["y_mm"],
+            extent_mm=[c["x0"], c["y0"], c["x1"], c["y1"]], bbox_mm=[c["bx0"], c["by0"], c["bx1"], c["by1"]],
+            next_mv=c["next_mv"], fext_mv=c["fext_mv"], next_pct=c["next_pct"], fext_pct=c["fext_pct"],
+            next_budget_mv=c["next_budget_mv"], fext_budget_mv=c["fext_budget_mv"], budget_used=c["budget_used"],
+            kb_max=c["kb_max"], strong_coupling=c["kb_max"] > STRONG_KB, rise_time_ns=ac.rise_time_ns,
+            swing_v=ac.swing_v, termination=vc.termination, victim_swing_v=vc.swing_v, run=rr, direction=jj,
+            fix=fixes.get(jj)))
+    return out
 
 
 def _victim_totals(board, rules: Rules, roles: NetRoles, d: DirectedRuns, noise: Noise) -> list[VictimTotal]:

@@ -9,6 +9,8 @@ import click
 
 from scanner import load_board, scan
 from scanner.report.files import write_tables, report_json
+from scanner.report.images import write_images
+from scanner.report.page import write_page
 from scanner.report.text import render
 from scanner.rules import load_rules
 
@@ -46,10 +48,10 @@ def command(board, rules_path, board_file, out_dir, top, as_json, no_images):
     if out_dir is not None:
         progress(f"writing reports to {out_dir}")
         if not no_images:
-            _write_visuals(result, the_board, out_dir)
+            write_images(result, the_board, out_dir)
         write_tables(result, out_dir)
         if not no_images:
-            _write_page(result, out_dir)
+            write_page(result, out_dir)
     if as_json:
         click.echo(report_json(result), nl=False)
     else:
@@ -57,18 +59,3 @@ def command(board, rules_path, board_file, out_dir, top, as_json, no_images):
     progress("done")
     return result.exit_code
 
-
-def _write_visuals(result, board, out_dir):
-    try:
-        from scanner.report import images
-    except ModuleNotFoundError:
-        return
-    images.write_images(result, board, out_dir)
-
-
-def _write_page(result, out_dir):
-    try:
-        from scanner.report import page
-    except ModuleNotFoundError:
-        return
-    page.write_page(result, out_dir)

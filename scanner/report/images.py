@@ -21,8 +21,8 @@ from scanner.board import Board
 from scanner.outputs import write_atomic
 from scanner.report import names, overlay, palette
 from scanner.report.copper import draw_copper, draw_outline
-from scanner.report.marks import (Mark, RoleTraces, composite_marks, layer_marks, layer_roles, layers_with_findings,
-                                  role_segments, run_rows_on, shown_hotspots)
+from scanner.report.marks import (Finding, Mark, RoleTraces, composite_marks, layer_marks, layer_roles,
+                                  layers_with_findings, role_segments, run_rows_on, shown_findings)
 from scanner.report.waveplot import finding_waveforms, wave_figure
 from scanner.score import Hotspot, ScanResult
 
@@ -74,7 +74,7 @@ def _finish(canvas: overlay.Canvas, marks: list[Mark], entries: list, heading: s
             shaped: bool = False) -> None:
     obstacles = overlay.scale_bar(canvas)
     overlay.draw_marks(canvas, marks, obstacles, shaped=shaped)
-    overlay.legend(canvas, overlay.status_handles(m.status for m in marks) + entries)
+    overlay.legend(canvas, overlay.status_handles(marks) + entries)
     overlay.title(canvas, heading, detail)
 
 
@@ -83,7 +83,7 @@ def _count(marks: list[Mark]) -> str:
     return f"{findings} finding{'s' if findings != 1 else ''} at {len(marks)} place{'s' if len(marks) != 1 else ''}"
 
 
-def layer_figure(result: ScanResult, board: Board, shown: list[Hotspot], layer_index: int):
+def layer_figure(result: ScanResult, board: Board, shown: list[Finding], layer_index: int):
     layer = board.layers[layer_index]
     canvas = _board_canvas(board)
     draw_copper(canvas.ax, layer, canvas.window, canvas.points_per_mm)
@@ -91,11 +91,11 @@ def layer_figure(result: ScanResult, board: Board, shown: list[Hotspot], layer_i
     marks = layer_marks(result, board, shown, layer_index)
     entries = overlay.role_handles() + overlay.copper_handles(board.outline is not None)
     _finish(canvas, marks, entries, f"{board.name} — layer {layer.name} ({layer.side}, seen from the top)",
-            f"{_count(marks)}; labels give the rank in the report table")
+            f"{_count(marks)}; labels give the rank in the report table (G: geometric limit)")
     return canvas.figure
 
 
-def composite_figure(result: ScanResult, board: Board, shown: list[Hotspot]):
+def composite_figure(result: ScanResult, board: Board, shown: list[Finding]):
     canvas = _board_canvas(board)
     entries = []
     if board.outline is None:
@@ -156,7 +156,7 @@ def crop_figure(result: ScanResult, board: Board, hotspot: Hotspot):
 def write_images(result: ScanResult, board: Board, out_dir: str | Path, top: int = DETAIL_TOP) -> list[Path]:
     """Write every image of the report into ``out_dir``; returns the paths written."""
     out_dir = Path(out_dir)
-    shown = shown_hotspots(result.hotspots)
+    shown = shown_findings(result)
     stems = names.layer_stems([layer.name for layer in board.layers])
     written = []
     overlays = [(stems[board.layers[k].name], lambda k=k: layer_figure(result, board, shown, k))

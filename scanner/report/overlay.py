@@ -122,7 +122,7 @@ def draw_marks(canvas: Canvas, marks: list[Mark], obstacles: np.ndarray, shaped:
     """
     if not marks:
         return 0
-    marks = sorted(marks, key=lambda m: m.rank)
+    marks = sorted(marks, key=lambda m: m.order)
     ax, ppm = canvas.ax, canvas.points_per_mm
     wx0, wy0 = canvas.window[0], canvas.window[1]
     renderer = canvas.figure.canvas.get_renderer()
@@ -150,9 +150,13 @@ def draw_marks(canvas: Canvas, marks: list[Mark], obstacles: np.ndarray, shaped:
     return int(layout.crowded.sum())
 
 
-def status_handles(statuses) -> list:
-    return [Patch(facecolor=palette.STATUS_COLOUR[s], edgecolor="white", label=f"{s}: {palette.STATUS_LABEL[s]}")
-            for s in ("fail", "warn", "pass") if s in set(statuses)]
+def status_handles(marks: list[Mark]) -> list:
+    """Legend entries for the statuses present; a broken geometric limit (label G…) also counts as fail."""
+    present = {m.status for m in marks}
+    geometric = any(part.startswith("G") for m in marks for part in m.text.split(","))
+    labels = dict(palette.STATUS_LABEL, fail=palette.STATUS_LABEL["fail"] + (" or limit" if geometric else ""))
+    return [Patch(facecolor=palette.STATUS_COLOUR[s], edgecolor="white", label=f"{s}: {labels[s]}")
+            for s in ("fail", "warn", "pass") if s in present]
 
 
 def role_handles() -> list:

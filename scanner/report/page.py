@@ -13,6 +13,7 @@ from pathlib import Path
 
 from scanner.outputs import write_atomic
 from scanner.report import names, palette
+from scanner.report.marks import geometric_label
 from scanner.score import CAUTION, SCHEMA, Hotspot, ScanResult, VictimTotal
 
 PAGE_FILE = "report.html"
@@ -104,6 +105,11 @@ figcaption {{ font-size: 0.82rem; color: #6b6357; }}
 .pair figure {{ flex: 1 1 540px; }}
 .scroll {{ overflow-x: auto; }}
 .muted {{ color: #6b6357; font-size: 0.85rem; }}
+.sub {{ color: #6b6357; font-size: 0.74rem; }}
+.views, td.num {{ white-space: nowrap; }}
+table.findings td {{ font-size: 0.8rem; }}
+table.findings td:nth-child(13) {{ white-space: nowrap; }}
+figure img.map {{ max-width: min(100%, 1100px); }}
 """
 
 
@@ -127,8 +133,9 @@ def _header(result: ScanResult, folder: _Folder) -> Markup:
                                        f"{len(result.hotspots)} listed."], class_="verdict")
     files = [link(f, f) for f in TABLE_FILES if folder.has(f)]
     data = tag("p", ["Data: "] + _joined(files, ", "), class_="muted") if files else Markup("")
-    sections = [("board", "Board"), ("rules", "Rules"), ("maps", "Maps"), ("findings", "Findings"),
-                ("details", "Top findings"), ("victims", "Victims"), ("assumptions", "Assumptions")]
+    sections = [("board", "Board"), ("rules", "Rules"), ("maps", "Maps"), ("findings", "Findings")]
+    sections += [("geometric", "Geometric limits")] if result.geometric else []
+    sections += [("details", "Top findings"), ("victims", "Victims"), ("assumptions", "Assumptions")]
     return Markup(tag("h1", f"Crosstalk report: {result.board.get('name', '')}") + verdict
                   + tag("p", [tag("strong", "Caution. "), CAUTION], class_="caution")
                   + tag("nav", [link(f"#{a}", t) for a, t in sections]) + data)
@@ -207,7 +214,7 @@ def _maps(result: ScanResult, folder: _Folder) -> Markup:
                                                 "layer.")] + [(st, f"Layer {name}: copper, victim and aggressor "
                                                                    f"traces, findings.") for name, st in stems.items()]:
         if folder.has(f"{stem}.png"):
-            img = tag("img", src=f"{stem}.png", alt=caption)
+            img = tag("img", src=f"{stem}.png", alt=caption, class_="map")
             body = link(f"{stem}.svg", img) if folder.has(f"{stem}.svg") else img
             parts.append(tag("figure", [body, tag("figcaption", caption)], id=stem))
     if len(parts) == 2:
@@ -215,7 +222,13 @@ def _maps(result: ScanResult, folder: _Folder) -> Markup:
     return Markup("".join(parts))
 
 
-def _fix_text(h: Hotspot) -> str:
+def two_line(main, sub) -> Markup:
+    """A cell value with a second, smaller line under it."""
+    return esc(main) + tag("br") + tag("span", sub, class_="sub")
+
+
+def _fix_text(h: Hotspot) -> Markup:
+    """Each way out on its own line: a wider spacing, a shorter run, another layer."""
     fix = h.fix or {}
     out = []
     if fix.get("spacing_needed_mm") is not None:
@@ -225,7 +238,7 @@ def _fix_text(h: Hotspot) -> str:
     layer = (fix.get("alternative_layer") or {}).get("layer")
     if layer:
         out.append(f"move to {layer}")
-    return " or ".join(out)
+    return Markup(tag("br").join(esc(o) for o in out))
 
 
 def _floor_note(result: ScanResult) -> str:
@@ -237,10 +250,10 @@ def _floor_note(result: ScanResult) -> str:
 
 def _views(h: Hotspot, folder: _Folder, stems: dict[str, str]) -> list:
     views = [link(target, text) for target, text in ((names.crop_file(h.rank), "crop"),
-                                                      (names.wave_file(h.rank), "waveform"),
-                                                      (f"{stems.get(h.layer, '')}.png", "layer map"))
+                                                      (names.wave_file(h.rank), "wave"),
+                                                      (f"{stems.get(h.layer, '')}.png", "map"))
              if folder.has(target)]
-    return _joined(views, " · ")
+    return tag("span", _joined(views, " · "), class_="views")
 
 
 def _findings(result: ScanResult, folder: _Folder) -> Markup:
@@ -249,21 +262,42 @@ def _findings(result: ScanResult, folder: _Folder) -> Markup:
     for h in result.hotspots:
         detail = folder.has(names.crop_file(h.rank)) or folder.has(names.wave_file(h.rank))
         rank = link(f"#finding-{h.rank}", str(h.rank)) if detail else str(h.rank)
-        rows.append([rank, badge(h.status), h.victim, h.aggressor, f"{h.victim_class} / {h.aggressor_class}",
-                     "+".join(h.layers), h.structure, num(h.coupled_length_mm, 4), num(h.min_spacing_mm),
-                     f"{h.next_mv:.4g} ({h.next_pct:.3g} %)", f"{h.fext_mv:.4g} ({h.fext_pct:.3g} %)",
-                     f"{h.next_budget_mv:.4g} / {h.fext_budget_mv:.4g}", f"{100 * h.budget_used:.0f} %",
-                     f"{h.x_mm:.2f}, {h.y_mm:.2f}", _fix_text(h), _views(h, folder, stems)])
+        rows.append([rank, badge(h.status), two_line(h.victim, h.victim_class),
+                     two_line(h.aggressor, h.aggressor_class), two_line("+".join(h.layers), h.structure),
+                     num(h.coupled_length_mm, 4), num(h.min_spacing_mm),
+                     two_line(f"{h.next_mv:.4g}", f"{h.next_pct:.3g} %"), two_line(f"{h.fext_mv:.4g}", f"{h.fext_pct:.3g} %"),
+                     two_line(f"{h.next_budget_mv:.4g}", f"{h.fext_budget_mv:.4g}"), f"{100 * h.budget_used:.0f} %",
+                     two_line(f"{h.x_mm:.2f}", f"{h.y_mm:.2f}"), _fix_text(h), _views(h, folder, stems)])
         classes.append(f"row-{h.status}")
-    headers = ["#", "status", "victim", "aggressor", "classes (victim / aggressor)", "layers", "structure",
-               "coupled mm", "min spacing mm", "NEXT mV (% of swing)", "FEXT mV (% of swing)",
-               "budget mV (NEXT / FEXT)", "budget used", "at x, y mm", "suggested fix", "views"]
-    body = table(headers, rows, class_="findings", numeric={0, 7, 8, 9, 10, 11, 12}, row_classes=classes)
+    headers = ["#", "status", "victim (class)", "aggressor (class)", "layers", "coupled mm", "min spacing mm",
+               "NEXT mV (% swing)", "FEXT mV (% swing)", "budget mV NEXT / FEXT", "budget used", "x / y mm",
+               "suggested fix", "views"]
+    body = table(headers, rows, class_="findings", numeric={0, 5, 6, 7, 8, 9, 10, 11}, row_classes=classes)
     return Markup(tag("h2", f"Findings, worst first ({len(result.hotspots)})", id="findings")
                   + tag("p", "One row per aggressor and victim on one coupled run; both directions of a run are "
                              f"listed.{_floor_note(result)} Location: middle of the run's worst stretch, board "
                              "coordinates seen from the top.", class_="muted")
                   + tag("div", body, class_="scroll"))
+
+
+def _geometric(result: ScanResult, folder: _Folder) -> Markup:
+    if not result.geometric:
+        return Markup("")
+    stems = names.layer_stems([layer["name"] for layer in result.board.get("layers", [])])
+    rows = []
+    for i, g in enumerate(result.geometric):
+        maps = [link(f"{stems[name]}.png", name) for name in g.layers if folder.has(f"{stems.get(name, '')}.png")]
+        rows.append([geometric_label(i), badge(g.status), two_line(g.victim, g.victim_class),
+                     two_line(g.aggressor, g.aggressor_class), "+".join(g.layers), num(g.parallel_mm, 4),
+                     num(g.max_parallel_mm, 4), num(g.within_spacing_mm), num(g.min_spacing_mm),
+                     two_line(f"{g.x_mm:.2f}", f"{g.y_mm:.2f}"), tag("span", _joined(maps, " · "), class_="views")])
+    headers = ["", "status", "victim (class)", "aggressor (class)", "layers", "parallel mm", "limit mm",
+               "within spacing mm", "min spacing mm", "x / y mm", "maps"]
+    return Markup(tag("h2", f"Geometric limits broken ({len(result.geometric)})", id="geometric")
+                  + tag("p", "Runs between two classes longer than the rules allow at or below a spacing; marked "
+                             "G1, G2, … on the maps.", class_="muted")
+                  + tag("div", table(headers, rows, numeric={5, 6, 7, 8, 9},
+                                     row_classes=[f"row-{g.status}" for g in result.geometric]), class_="scroll"))
 
 
 def _details(result: ScanResult, folder: _Folder) -> Markup:
@@ -346,7 +380,7 @@ def render_page(result: ScanResult, out_dir: str | Path) -> str:
     """The page's HTML; links only to files that exist in ``out_dir``."""
     folder = _Folder(Path(out_dir))
     body = (_header(result, folder) + _board(result) + _rules(result) + _maps(result, folder)
-            + _findings(result, folder) + _details(result, folder) + _victims(result.victims) + _assumptions(result)
+            + _findings(result, folder) + _geometric(result, folder) + _details(result, folder) + _victims(result.victims) + _assumptions(result)
             + tag("footer", f"nearfar {_version()}; data schema {SCHEMA}.", class_="muted"))
     head = Markup(tag("meta", charset="utf-8") + tag("meta", name="viewport", content="width=device-width, initial-scale=1")
                   + tag("title", f"Crosstalk report: {result.board.get('name', '')}") + tag("style", Markup(_style())))

@@ -36,8 +36,9 @@ class LayerArtwork:
 
 
 def _objects(items) -> np.ndarray:
+    items = list(items)
     out = np.empty(len(items), dtype=object)
-    out[:] = list(items)
+    out[:] = items
     return out
 
 
