@@ -35,11 +35,12 @@ class RunPeaks:
 
 def run_peaks(kb: np.ndarray, kf_s_per_m: np.ndarray, length_m: np.ndarray, velocity_m_per_s: np.ndarray,
               run_start: np.ndarray, swing_v: np.ndarray, ramp_s: np.ndarray,
-              fext_gain: np.ndarray | float = 1.0) -> RunPeaks:
+              receiver_gain: np.ndarray | float = 1.0) -> RunPeaks:
     """Peaks for runs given as consecutive pieces (CSR: run r owns pieces run_start[r]:run_start[r+1]).
 
-    ``swing_v``, ``ramp_s`` and ``fext_gain`` are per run (the aggressor's swing and
-    0–100 % ramp duration; the far-end gain, 2 for a high-impedance receiver).
+    ``swing_v``, ``ramp_s`` and ``receiver_gain`` are per run: the aggressor's swing and
+    0–100 % ramp duration, and the gain of the victim's receiver on an arriving wave
+    (1 when matched; 2 for a high-impedance input, where the wave doubles).
     """
     kb, kf_s_per_m, length_m, velocity_m_per_s = (np.asarray(a, dtype=float)
                                                    for a in (kb, kf_s_per_m, length_m, velocity_m_per_s))
@@ -48,7 +49,7 @@ def run_peaks(kb: np.ndarray, kf_s_per_m: np.ndarray, length_m: np.ndarray, velo
     n_runs = len(counts)
     swing_v = np.broadcast_to(np.asarray(swing_v, dtype=float), (n_runs,))
     ramp_s = np.broadcast_to(np.asarray(ramp_s, dtype=float), (n_runs,))
-    fext_gain = np.broadcast_to(np.asarray(fext_gain, dtype=float), (n_runs,))
+    receiver_gain = np.broadcast_to(np.asarray(receiver_gain, dtype=float), (n_runs,))
     if n_runs == 0:
         z = np.zeros(0)
         return RunPeaks(z, z)
@@ -57,13 +58,13 @@ def run_peaks(kb: np.ndarray, kf_s_per_m: np.ndarray, length_m: np.ndarray, velo
     delay = length_m / velocity_m_per_s
     kfl = np.add.reduceat(kf_s_per_m * length_m, run_start[:-1]) if len(kb) else np.zeros(n_runs)
     kfl = np.where(counts > 0, kfl, 0.0)
-    fext_v = fext_gain * swing_v / ramp_s * kfl
+    fext_v = receiver_gain * swing_v / ramp_s * kfl
 
     # delay from the run's first piece to the start of each piece
     before = np.cumsum(delay) - delay
     start = before - before[np.minimum(run_start[:-1], len(kb) - 1)][run_of_piece] if len(kb) else before
     next_v = _near_end_peak(kb, 2 * start, 2 * (start + delay), run_of_piece, counts, ramp_s)
-    return RunPeaks(swing_v * next_v, fext_v)
+    return RunPeaks(receiver_gain * swing_v * next_v, fext_v)
 
 
 def _near_end_peak(kb, s_begin, s_end, run_of_piece, counts, ramp_s) -> np.ndarray:

@@ -36,7 +36,7 @@ class DirectedRuns:
     victim: np.ndarray
     swing_v: np.ndarray  # aggressor swing
     ramp_s: np.ndarray  # aggressor ramp (0-100 %)
-    fext_gain: np.ndarray  # 2 into a high-impedance receiver
+    receiver_gain: np.ndarray  # 2 into a high-impedance receiver (either end)
     next_budget_v: np.ndarray
     fext_budget_v: np.ndarray
     piece_rows: np.ndarray  # rows of runs.pieces, run by run (CSR with piece_start)
@@ -50,7 +50,7 @@ class DirectedRuns:
         counts = np.diff(self.piece_start)[select]
         rows = self.piece_rows[_expand(self.piece_start[select], counts)]
         return DirectedRuns(self.run[select], self.aggressor[select], self.victim[select], self.swing_v[select],
-                            self.ramp_s[select], self.fext_gain[select], self.next_budget_v[select],
+                            self.ramp_s[select], self.receiver_gain[select], self.next_budget_v[select],
                             self.fext_budget_v[select], rows, _starts(counts))
 
 
@@ -78,13 +78,13 @@ def directed_runs(rules: Rules, roles: NetRoles, runs: CoupledRuns, keep: np.nda
         run=run, aggressor=aggressor, victim=victim,
         swing_v=table(lambda c: c.swing_v)[agg_c],
         ramp_s=table(lambda c: c.rise_time_ns)[agg_c] * 1e-9 * RAMP_PER_RISE,
-        fext_gain=table(lambda c: 2.0 if c.termination == "high-z-receiver" else 1.0)[vic_c],
+        receiver_gain=table(lambda c: 2.0 if c.termination == "high-z-receiver" else 1.0)[vic_c],
         next_budget_v=next_budget, fext_budget_v=fext_budget,
         piece_rows=runs.piece_order[_expand(runs.run_start[run], counts)], piece_start=_starts(counts))
 
 
 def directed_noise(d: DirectedRuns, kb, kf, length_m, velocity):
     """(NEXT V, FEXT V signed, fraction of budget used) per directed run, from per-piece values in d's piece order."""
-    peaks = run_peaks(kb, kf, length_m, velocity, d.piece_start, d.swing_v, d.ramp_s, d.fext_gain)
+    peaks = run_peaks(kb, kf, length_m, velocity, d.piece_start, d.swing_v, d.ramp_s, d.receiver_gain)
     used = np.maximum(np.abs(peaks.next_v) / d.next_budget_v, np.abs(peaks.fext_v) / d.fext_budget_v)
     return peaks.next_v, peaks.fext_v, used

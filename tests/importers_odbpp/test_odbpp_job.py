@@ -216,19 +216,21 @@ def test_registry_prefers_odbpp_for_a_job_folder(job):
     ({"matrix__matrix": "STEP {\n NAME=pcb\n}\nLAYER {\n ROW=1\n TYPE=SIGNAL\n"}, "matrix/matrix", None,
      "opened at line 4 is not closed"),
     ({"matrix__matrix": "STEP {\n NAME=pcb\n}\nLAYER {\n ROW=1\n NAME=top\n}\n"}, "matrix/matrix", 4, "without TYPE"),
-    ({"matrix__matrix": matrix_text([(1, "SIGNAL", "top"), (1, "SIGNAL", "bot")])}, "matrix/matrix", 9, "twice"),
+    ({"matrix__matrix": matrix_text([(1, "SIGNAL", "top"), (1, "SIGNAL", "bot")])}, "matrix/matrix", 12, "twice"),
     ({"misc__info": "UNITS=FURLONG\n"}, "misc/info", 1, "unknown units"),
     ({"steps__pcb__layers__gnd__features": GND.replace("UNITS=MM", "UNITS=CM")}, "layers/gnd/features", 1,
      "unknown units"),
     ({"steps__pcb__layers__top__features": TOP.replace("L 10 12 30 12 0 P 0", "L 10 12 30 12 7 P 0")},
-     "layers/top/features", 10, r"symbol \$7"),
+     "layers/top/features", 9, r"symbol \$7"),
     ({"steps__pcb__layers__bot__features": None}, "layers/bot/features", None, "not found"),
-    ({"steps__pcb__eda__data": EDA.replace("FID C 2 1", "FID C 2 9")}, "eda/data", 14, "has only 2 features"),
-    ({"steps__pcb__eda__data": EDA.replace("FID C 2 1", "FID C 7 1")}, "eda/data", 14, "LYR lists 4 layers"),
+    ({"steps__pcb__eda__data": EDA.replace("FID C 2 1", "FID C 2 9")}, "eda/data", 16, "has only 2 features"),
+    ({"steps__pcb__eda__data": EDA.replace("FID C 2 1", "FID C 7 1")}, "eda/data", 16, "LYR lists 4 layers"),
     ({"steps__pcb__eda__data": "LYR top\nFID C 0 0\n"}, "eda/data", 2, "outside a NET"),
-    ({"steps__pcb__eda__data": EDA.replace("FID C 2 1", "FID C two 1")}, "eda/data", 14, "layer number"),
-    ({"steps__pcb__layers__gnd__features": GND.replace("OE\nSE\n", "")}, "layers/gnd/features", 10,
-     "not closed"),
+    ({"steps__pcb__eda__data": EDA.replace("FID C 2 1", "FID C two 1")}, "eda/data", 16, "layer number must be a whole number"),
+    ({"steps__pcb__layers__gnd__features": GND.replace("OE\nSE\n", "")}, "layers/gnd/features", 11,
+     r"record 'P' inside a surface \(opened at line 5\)"),
+    ({"steps__pcb__layers__gnd__features": GND.replace("OE\nSE\nP 35 20 0 N 0 0\n", "")},
+     "layers/gnd/features", 10, "opened at line 6 is not closed"),
 ])
 def test_bad_jobs_name_file_and_line(tmp_path, change, where, line, message):
     job = write_job(tmp_path, job_files(**change))
@@ -251,5 +253,5 @@ def test_cli_exits_2_with_one_line(tmp_path, capsys):
         main(["inspect", str(tmp_path)])
     assert info.value.code == 2
     err = capsys.readouterr().err
-    assert err.startswith("nearfar: error: ") and "testjob/steps/pcb/eda/data:14:" in err
+    assert err.startswith("nearfar: error: ") and "testjob/steps/pcb/eda/data:16:" in err
     assert "Traceback" not in err and len(err.strip().splitlines()) == 1

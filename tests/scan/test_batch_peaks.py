@@ -32,10 +32,12 @@ def test_short_run_next_scales_with_two_td_over_t():
     assert np.isclose(p.next_v[0], 0.04 * 2 * length / V / 1e-9, rtol=1e-12)
 
 
-def test_fext_is_kf_length_swing_over_ramp_and_doubles_into_high_z():
-    # far end: Kf * l * dV / T (same source); a high-impedance receiver doubles it (common practice)
-    p = run_peaks([0.02], [-3e-11], [0.05], [V], np.array([0, 1]), 2.5, 0.5e-9, fext_gain=[2.0])
+def test_fext_is_kf_length_swing_over_ramp_and_both_double_into_high_z():
+    # far end: Kf * l * dV / T (same source); a wave arriving at an open (high-impedance)
+    # receiver doubles (reflection coefficient +1, any transmission-line text)
+    p = run_peaks([0.02], [-3e-11], [0.05], [V], np.array([0, 1]), 2.5, 0.5e-9, receiver_gain=[2.0])
     assert np.isclose(p.fext_v[0], 2 * -3e-11 * 0.05 * 2.5 / 0.5e-9, rtol=1e-12)
+    assert np.isclose(p.next_v[0], 2 * 0.02 * 2.5, rtol=1e-12)
 
 
 def test_splitting_a_uniform_run_changes_nothing():

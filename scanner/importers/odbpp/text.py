@@ -67,11 +67,11 @@ def number(token: str, src: JobFile, line: int, what: str = "number") -> float:
         raise InputError(f"expected a {what}, found {token!r}", path=src.name, line=line) from None
 
 
-def integer(token: str, src: JobFile, line: int, what: str = "integer") -> int:
+def integer(token: str, src: JobFile, line: int, what: str) -> int:
     try:
         return int(token)
     except ValueError:
-        raise InputError(f"expected an {what}, found {token!r}", path=src.name, line=line) from None
+        raise InputError(f"{what} must be a whole number, found {token!r}", path=src.name, line=line) from None
 
 
 @dataclass
