@@ -31,6 +31,6 @@ def load_board(path, board_file=None):
 
 def scan(board, rules=None, progress=None):
     """Find coupled runs, score them against the rules and return a :class:`scanner.score.ScanResult`."""
-    from scanner.scan import run_scan
+    from scanner.pipeline import run_scan
 
     return run_scan(board, rules, progress=progress)

@@ -140,6 +140,7 @@ def test_regenerates_byte_for_byte(regenerated):
     committed = sorted(p.relative_to(FIXTURE) for p in FIXTURE.rglob("*") if p.is_file())
     fresh = sorted(p.relative_to(regenerated) for p in regenerated.rglob("*") if p.is_file())
     assert fresh == committed
+    assert {Path("odbpp/ml6-logger/matrix/matrix"), Path("odbpp/ml6-logger/steps/pcb/eda/data")} <= set(fresh)
     for rel in fresh:
         assert (regenerated / rel).read_bytes() == (FIXTURE / rel).read_bytes(), rel
 

@@ -21,7 +21,7 @@ from scanner.board import Board
 from scanner.outputs import write_atomic
 from scanner.report import names, overlay, palette
 from scanner.report.copper import draw_copper, draw_outline
-from scanner.report.marks import (Finding, Mark, RoleTraces, composite_marks, layer_marks, layer_roles,
+from scanner.report.marks import (Finding, Mark, RoleTraces, composite_marks, has_geometric, layer_marks, layer_roles,
                                   layers_with_findings, role_segments, run_rows_on, shown_findings)
 from scanner.report.waveplot import finding_waveforms, wave_figure
 from scanner.score import Hotspot, ScanResult
@@ -31,7 +31,7 @@ DETAIL_TOP = 10
 OVERLAY_DPI = 150
 DETAIL_DPI = 130
 BOARD_VIEW_IN = ((11.0, 8.0), (5.0, 3.5))  # largest and smallest axes box (inches)
-CROP_VIEW_IN = ((8.5, 5.5), (5.5, 3.2))
+CROP_VIEW_IN = ((8.5, 5.5), (6.5, 3.2))
 #: the worst piece is shaded this many points wider than its pair of traces
 WORST_HALO_PT = 5.0
 
@@ -78,6 +78,10 @@ def _finish(canvas: overlay.Canvas, marks: list[Mark], entries: list, heading: s
     overlay.title(canvas, heading, detail)
 
 
+def _geometric_note(marks: list[Mark]) -> str:
+    return " (G: a broken geometric limit)" if has_geometric(marks) else ""
+
+
 def _count(marks: list[Mark]) -> str:
     findings = sum(len(m.text.split(",")) for m in marks)
     return f"{findings} finding{'s' if findings != 1 else ''} at {len(marks)} place{'s' if len(marks) != 1 else ''}"
@@ -91,7 +95,7 @@ def layer_figure(result: ScanResult, board: Board, shown: list[Finding], layer_i
     marks = layer_marks(result, board, shown, layer_index)
     entries = overlay.role_handles() + overlay.copper_handles(board.outline is not None)
     _finish(canvas, marks, entries, f"{board.name} — layer {layer.name} ({layer.side}, seen from the top)",
-            f"{_count(marks)}; labels give the rank in the report table (G: geometric limit)")
+            f"{_count(marks)}; labels give the rank in the report table" + _geometric_note(marks))
     return canvas.figure
 
 
@@ -148,8 +152,8 @@ def crop_figure(result: ScanResult, board: Board, hotspot: Hotspot):
     mark = Mark(hotspot.x_mm, hotspot.y_mm, str(hotspot.rank), hotspot.status, hotspot.rank, layer.side)
     _finish(canvas, [mark], entries, f"#{hotspot.rank}  {hotspot.victim} (victim) ← {hotspot.aggressor} "
             f"(aggressor) on {layer.name}",
-            f"{board.name}: {hotspot.coupled_length_mm:.4g} mm coupled, spacing ≥ {hotspot.min_spacing_mm:.3g} mm, "
-            f"NEXT {hotspot.next_mv:.4g} mV, FEXT {hotspot.fext_mv:.4g} mV ({100 * hotspot.budget_used:.0f} % of budget)")
+            f"{board.name}: {hotspot.coupled_length_mm:.4g} mm coupled, ≥ {hotspot.min_spacing_mm:.3g} mm apart; "
+            f"NEXT {hotspot.next_mv:.4g} mV, FEXT {hotspot.fext_mv:.4g} mV; {100 * hotspot.budget_used:.0f} % of budget")
     return canvas.figure
 
 

@@ -58,6 +58,11 @@ def geometric_label(index: int) -> str:
     return f"G{index + 1}"
 
 
+def has_geometric(marks: list[Mark]) -> bool:
+    """Whether any marker carries a broken geometric limit."""
+    return any(part.startswith("G") for m in marks for part in m.text.split(","))
+
+
 def shown_findings(result: ScanResult, pass_top: int = PASS_SHOWN_TOP) -> list[Finding]:
     """Noise findings with status fail or warn, passing ones among the first ``pass_top`` ranks, and every
     broken geometric limit."""

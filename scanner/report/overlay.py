@@ -13,6 +13,7 @@ from dataclasses import dataclass
 
 import numpy as np
 from matplotlib.backends.backend_agg import FigureCanvasAgg
+from matplotlib.collections import LineCollection
 from matplotlib.figure import Figure
 from matplotlib.font_manager import FontProperties
 from matplotlib.lines import Line2D
@@ -23,7 +24,7 @@ from scanner.board import TraceSegments
 from scanner.report import palette
 from scanner.report.copper import Window, stroke_collection
 from scanner.report.labels import place_labels
-from scanner.report.marks import Mark, RoleTraces
+from scanner.report.marks import Mark, RoleTraces, has_geometric
 
 MARGIN_IN = {"left": 0.8, "right": 0.3, "top": 0.55, "bottom": 0.95}
 LABEL_FONT = FontProperties(family="DejaVu Sans", size=7.5, weight="bold")
@@ -33,7 +34,7 @@ MARKER_RADIUS_PT = 3.5
 MIN_HIGHLIGHT_PT = 1.6
 SIDE_MARKER = {"top": "o", "inner": "D", "bottom": "s"}
 SIDE_NAME = {"top": "on the top layer", "inner": "on an inner layer", "bottom": "on the bottom layer"}
-Z_HIGHLIGHT, Z_DASH, Z_WORST, Z_MARK, Z_LABEL = 5.0, 5.5, 4.5, 7.0, 8.0
+Z_HIGHLIGHT, Z_DASH, Z_WORST, Z_LEADER, Z_MARK, Z_LABEL = 5.0, 5.5, 4.5, 6.0, 7.0, 8.0
 
 
 @dataclass(frozen=True)
@@ -139,22 +140,23 @@ def draw_marks(canvas: Canvas, marks: list[Mark], obstacles: np.ndarray, shaped:
         ax.scatter([m.x_mm for m in chosen], [m.y_mm for m in chosen], s=(2 * MARKER_RADIUS_PT) ** 2, marker=shape,
                    facecolors="white", edgecolors=[palette.STATUS_COLOUR[m.status] for m in chosen],
                    linewidths=1.6, zorder=Z_MARK)
-    for m, lx, ly in zip(marks, layout.x, layout.y):
-        ax.annotate(m.text, xy=(m.x_mm, m.y_mm), xytext=(wx0 + lx / ppm, wy0 + ly / ppm), textcoords="data",
-                    ha="center", va="center", fontproperties=LABEL_FONT, color=palette.STATUS_TEXT[m.status],
-                    bbox=dict(boxstyle=f"round,pad={LABEL_PAD_PT / LABEL_FONT.get_size()}",
-                              facecolor=palette.STATUS_COLOUR[m.status], edgecolor="white", linewidth=0.6),
-                    arrowprops=dict(arrowstyle="-", color=palette.LEADER, linewidth=0.6, shrinkA=0,
-                                    shrinkB=MARKER_RADIUS_PT),
-                    zorder=Z_LABEL, annotation_clip=False)
+    label_x, label_y = wx0 + layout.x / ppm, wy0 + layout.y / ppm
+    # leaders from marker centre to label centre, under every marker and label so none is crossed out
+    leaders = np.stack([np.column_stack([[m.x_mm for m in marks], [m.y_mm for m in marks]]),
+                        np.column_stack([label_x, label_y])], axis=1)
+    ax.add_collection(LineCollection(leaders, colors=palette.LEADER, linewidths=0.6, zorder=Z_LEADER))
+    for m, lx, ly in zip(marks, label_x, label_y):
+        ax.text(lx, ly, m.text, ha="center", va="center", fontproperties=LABEL_FONT,
+                color=palette.STATUS_TEXT[m.status], zorder=Z_LABEL, clip_on=False,
+                bbox=dict(boxstyle=f"round,pad={LABEL_PAD_PT / LABEL_FONT.get_size()}",
+                          facecolor=palette.STATUS_COLOUR[m.status], edgecolor="white", linewidth=0.6))
     return int(layout.crowded.sum())
 
 
 def status_handles(marks: list[Mark]) -> list:
     """Legend entries for the statuses present; a broken geometric limit (label G…) also counts as fail."""
     present = {m.status for m in marks}
-    geometric = any(part.startswith("G") for m in marks for part in m.text.split(","))
-    labels = dict(palette.STATUS_LABEL, fail=palette.STATUS_LABEL["fail"] + (" or limit" if geometric else ""))
+    labels = dict(palette.STATUS_LABEL, fail=palette.STATUS_LABEL["fail"] + (" or limit" if has_geometric(marks) else ""))
     return [Patch(facecolor=palette.STATUS_COLOUR[s], edgecolor="white", label=f"{s}: {labels[s]}")
             for s in ("fail", "warn", "pass") if s in present]
 
@@ -167,9 +169,10 @@ def role_handles() -> list:
 
 
 def side_handles(sides) -> list:
+    sides = set(sides)
     return [(Line2D([], [], linestyle="none", marker=SIDE_MARKER[s], markerfacecolor="white",
                     markeredgecolor=palette.INK, markersize=6), f"finding {SIDE_NAME[s]}")
-            for s in ("top", "inner", "bottom") if s in set(sides)]
+            for s in ("top", "inner", "bottom") if s in sides]
 
 
 def copper_handles(has_outline: bool) -> list:
@@ -193,6 +196,8 @@ def title(canvas: Canvas, text: str, detail: str = "") -> None:
     """A heading and a line of detail in the top margin, aligned with the axes' left edge."""
     fig_h = canvas.figure.get_figheight()
     left = canvas.ax.get_position().x0
-    canvas.figure.text(left, 1 - 0.2 / fig_h, text, fontsize=10, color=palette.INK, ha="left", va="center")
+    canvas.figure.text(left, 1 - 0.2 / fig_h, text, fontsize=10, color=palette.INK, ha="left", va="center",
+                       wrap=True)
     if detail:
-        canvas.figure.text(left, 1 - 0.38 / fig_h, detail, fontsize=7.5, color="#6b6357", ha="left", va="center")
+        canvas.figure.text(left, 1 - 0.38 / fig_h, detail, fontsize=7.5, color="#6b6357", ha="left", va="center",
+                           wrap=True)

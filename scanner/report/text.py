@@ -22,10 +22,14 @@ def render(result: ScanResult, top: int = 20) -> str:
     lines += [f"  {c['name']:<14} {', '.join(c['patterns'])[:40]:<40} tr {c['rise_time_ns']:g} ns, {c['swing_v']:g} V; "
               f"NEXT ≤ {_budget(c, 'next')}, FEXT ≤ {_budget(c, 'fext')}; {c['termination']}"
               for c in result.rules["classes"] + [result.rules["default_class"]]]
+    if result.stackup["source"] == "default":
+        lines.append("!" * 78)
     for w in result.warnings[:8]:
         lines.append(f"warning: {w}")
     if len(result.warnings) > 8:
         lines.append(f"warning: … and {len(result.warnings) - 8} more (see report.json)")
+    if result.stackup["source"] == "default":
+        lines.append("!" * 78)
     lines.append("")
     header = ("#", "status", "victim", "aggressor", "layer", "len mm", "gap mm", "NEXT mV", "FEXT mV", "used", "at x,y mm", "fix")
     rows = []

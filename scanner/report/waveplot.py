@@ -139,8 +139,8 @@ def wave_figure(waves: FindingWaveforms, hotspot: Hotspot) -> Figure:
     if hotspot.aggressor_model == ODD_MODE:
         note = f" — run from {waves.aggressor} only; the table combines both members of the pair"
     fig.text(0.09, 0.93, f"#{hotspot.rank}  {hotspot.victim} (victim) ← {hotspot.aggressor} (aggressor)",
-             fontsize=10, color=palette.INK, ha="left")
+             fontsize=10, color=palette.INK, ha="left", wrap=True)
     fig.text(0.09, 0.875, f"{hotspot.coupled_length_mm:.4g} mm coupled on {'+'.join(hotspot.layers)} "
              f"({hotspot.structure}), swing {hotspot.swing_v:g} V, weak-coupling estimate{note}",
-             fontsize=7.5, color="#6b6357", ha="left")
+             fontsize=7.5, color="#6b6357", ha="left", wrap=True)
     return fig

@@ -13,11 +13,11 @@ import numpy as np
 import pytest
 from click.testing import CliRunner
 
+import scanner
 from scanner.cli import cli
 from scanner.importers import load_board
 from scanner.importers.odbpp import load_odbpp
 from scanner.rules import load_rules
-from scanner.scan import run_scan
 
 from tests.importers_odbpp.jobs import tar_job
 
@@ -101,7 +101,7 @@ def test_same_hotspots_on_all_three(boards):
     rules = load_rules(ROOT / "fixtures" / "demo-rules.toml")
     x1 = copy.copy(boards["x1"])
     x1.stackup = boards["odbpp"].stackup  # the X1 set carries no stackup; give it the one the other two carry
-    results = {name: run_scan(board, rules) for name, board in (("odbpp", boards["odbpp"]), ("x2", boards["x2"]),
+    results = {name: scanner.scan(board, rules) for name, board in (("odbpp", boards["odbpp"]), ("x2", boards["x2"]),
                                                                  ("x1", x1))}
     odb = sorted(results["odbpp"].hotspots, key=_key)
     assert any(h.status == "fail" for h in odb)

@@ -223,6 +223,8 @@ def test_registry_prefers_odbpp_for_a_job_folder(job):
     ({"steps__pcb__layers__top__features": TOP.replace("L 10 12 30 12 0 P 0", "L 10 12 30 12 7 P 0")},
      "layers/top/features", 9, r"symbol \$7"),
     ({"steps__pcb__layers__bot__features": None}, "layers/bot/features", None, "not found"),
+    ({"steps__pcb__layers__bot__features": None, "steps__pcb__layers__bot__features.Z": "\x1f\x9d"},
+     "layers/bot/features.Z", None, "compressed"),
     ({"steps__pcb__eda__data": EDA.replace("FID C 2 1", "FID C 2 9")}, "eda/data", 16, "has only 2 features"),
     ({"steps__pcb__eda__data": EDA.replace("FID C 2 1", "FID C 7 1")}, "eda/data", 16, "LYR lists 4 layers"),
     ({"steps__pcb__eda__data": "LYR top\nFID C 0 0\n"}, "eda/data", 2, "outside a NET"),

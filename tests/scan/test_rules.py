@@ -95,3 +95,9 @@ def test_defaults_are_stated():
     assert d["source"] == "defaults"
     assert d["default_class"]["rise_time_ns"] > 0
     assert d["scan"]["min_coupled_length_mm"] > 0
+
+
+def test_api_functions_survive_their_modules_being_imported():
+    import scanner
+    import scanner.pipeline  # noqa: F401
+    assert callable(scanner.scan) and callable(scanner.load_board)

@@ -18,7 +18,7 @@ import shapely
 from scanner.errors import InputError
 from scanner.importers.apertures import arc_poly_polygon
 from scanner.importers.diagnostics import FileWarnings
-from scanner.importers.odbpp.symbols import Symbol, standard_symbol
+from scanner.importers.odbpp.symbols import Symbol
 from scanner.importers.odbpp.text import UNITS, JobFile, integer, number, read_lines, units_word
 
 #: legacy pad orientations 0..7: (clockwise rotation in degrees, mirrored)
@@ -127,13 +127,25 @@ class _Parser:
     def record(self, head: str, t: list[str], n: int, attrs: str) -> None:
         if self.surface is not None:
             self.surface_record(head, t, n)
-            return
+        elif head == "L":
+            self.line(t, n, attrs)
+        elif head == "P":
+            self.pad(t, n, attrs)
+        elif head == "A":
+            self.arc(t, n, attrs)
+        elif head == "S":
+            self.surface = (self.feature(t[1], n, attrs), n, [])
+        elif head in ("T", "B"):
+            self.feature(t[4] if head == "T" else t[5], n, attrs)
+            self.log.add(f"{'text' if head == 'T' else 'barcode'} feature not drawn", n)
+        else:
+            self.header_record(head, t, n)
+
+    def header_record(self, head: str, t: list[str], n: int) -> None:
         if head.upper().startswith("UNITS") and "=" in " ".join(t):
             self.units = units_word(" ".join(t).partition("=")[2], self.src, n)
         elif head == "U" and len(t) == 2:
             self.units = units_word(t[1], self.src, n)
-        elif head.upper().startswith("ID="):
-            return
         elif head == "F" and len(t) == 2:
             self.declared = integer(t[1], self.src, n, "feature count")
         elif head.startswith("$"):
@@ -144,30 +156,22 @@ class _Parser:
             self.symbol_refs[k] = SymbolRef(t[1], flag, n)
         elif head.startswith("@"):
             self.attribute_names[integer(head[1:], self.src, n, "attribute number")] = t[1] if len(t) > 1 else ""
-        elif head.startswith("&"):
-            return
-        elif head == "L":
-            f = self.feature(t[6], n, attrs)
-            for key, value in zip(_LINE_KEYS, (f, *(self.num(v, n) for v in t[1:5]), self.symbol(t[5], n))):
-                self.lines[key].append(value)
-        elif head == "A":
-            f = self.feature(t[8], n, attrs)
-            cw = t[10].upper() if len(t) > 10 else ""
-            if cw not in ("Y", "N"):
-                self.fail(f"arc direction must be Y (clockwise) or N, found {cw or 'nothing'!r}", n)
-            values = (f, *(self.num(v, n) for v in t[1:7]), self.symbol(t[7], n), cw == "Y")
-            for key, value in zip(_ARC_KEYS, values):
-                self.arcs[key].append(value)
-        elif head == "P":
-            self.pad(t, n, attrs)
-        elif head == "S":
-            f = self.feature(t[1], n, attrs)
-            self.surface = (f, n, [])
-        elif head in ("T", "B"):
-            self.feature(t[4] if head == "T" else t[5], n, attrs)
-            self.log.add(f"{'text' if head == 'T' else 'barcode'} feature not drawn", n)
-        else:
+        elif not (head.startswith("&") or head.upper().startswith("ID=")):
             self.log.add(f"record {head!r} not understood; skipped", n)
+
+    def line(self, t: list[str], n: int, attrs: str) -> None:
+        f = self.feature(t[6], n, attrs)
+        for key, value in zip(_LINE_KEYS, (f, *(self.num(v, n) for v in t[1:5]), self.symbol(t[5], n))):
+            self.lines[key].append(value)
+
+    def arc(self, t: list[str], n: int, attrs: str) -> None:
+        f = self.feature(t[8], n, attrs)
+        cw = t[10].upper() if len(t) > 10 else ""
+        if cw not in ("Y", "N"):
+            self.fail(f"arc direction must be Y (clockwise) or N, found {cw or 'nothing'!r}", n)
+        values = (f, *(self.num(v, n) for v in t[1:7]), self.symbol(t[7], n), cw == "Y")
+        for key, value in zip(_ARC_KEYS, values):
+            self.arcs[key].append(value)
 
     def pad(self, t: list[str], n: int, attrs: str) -> None:
         x, y = self.num(t[1], n), self.num(t[2], n)

@@ -38,7 +38,7 @@ Progress = Callable[[str], None]
 def run_scan(board: Board, rules: Rules | None = None, progress: Progress | None = None) -> ScanResult:
     rules = rules or Rules()
     say = progress or (lambda _msg: None)
-    warnings = list(board.warnings)
+    warnings: list[str] = []
 
     plane_layers = {layer.index for layer in board.layers if layer.kind == "plane" or layer.name in rules.planes}
     stackup, stack_warnings = effective_stackup(board, rules.stackup)
@@ -47,6 +47,7 @@ def run_scan(board: Board, rules: Rules | None = None, progress: Progress | None
     for layer in board.layers:
         if layer.index not in plane_layers and layer.index not in envs and len(layer.segments):
             warnings.append(f"layer {layer.name} has no reference plane on either side; not scanned")
+    warnings += board.warnings
 
     plane_nets = _plane_nets(board, plane_layers)
     roles = assign_roles(board.nets, rules, plane_nets)
