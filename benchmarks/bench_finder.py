@@ -8,7 +8,6 @@ Each size runs in a fresh process so its peak resident memory (ru_maxrss) is its
 from __future__ import annotations
 
 import resource
-import subprocess
 import sys
 import time
 from pathlib import Path
@@ -16,7 +15,7 @@ from pathlib import Path
 import numpy as np
 
 sys.path.insert(0, str(Path(__file__).resolve().parent))
-from make_large_board import make_layers  # noqa: E402
+from make_large_board import make_layers, run_per_size  # noqa: E402
 
 from scanner.finder import find_coupled_pieces  # noqa: E402
 from scanner.runs import build_runs  # noqa: E402
@@ -44,13 +43,7 @@ def bench_one(n_segments: int) -> str:
 
 
 def main(argv: list[str]) -> None:
-    if len(argv) > 1:
-        print(bench_one(int(argv[1])), flush=True)
-        return
-    print("| segments | pieces | runs | find s | runs s | total s | peak RSS MB | RSS before scan MB |")
-    print("|---|---|---|---|---|---|---|---|", flush=True)
-    for n in SIZES:
-        subprocess.run([sys.executable, __file__, str(n)], check=True)
+    run_per_size(argv, __file__, "| segments | pieces | runs | find s | runs s | total s | peak RSS MB | RSS before scan MB |", bench_one, SIZES)
 
 
 if __name__ == "__main__":

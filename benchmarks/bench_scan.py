@@ -16,15 +16,13 @@ import os
 os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")  # as the nearfar command does, before numpy loads
 
 import resource
-import subprocess
 import sys
 import time
 from pathlib import Path
 
-import numpy as np
 
 sys.path.insert(0, str(Path(__file__).resolve().parent))
-from make_large_board import make_layers  # noqa: E402
+from make_large_board import make_layers, run_per_size  # noqa: E402
 
 from scanner import scan  # noqa: E402
 from scanner.board import Board, CopperLayer, CopperShapes, Holes, TraceSegments  # noqa: E402
@@ -72,13 +70,7 @@ def bench_one(n_segments: int) -> str:
 
 
 def main(argv: list[str]) -> None:
-    if len(argv) > 1:
-        print(bench_one(int(argv[1])), flush=True)
-        return
-    print("| segments | runs scored | findings | solves | find / solve / score s | total s | peak RSS MB | RSS before scan MB |")
-    print("|---|---|---|---|---|---|---|---|", flush=True)
-    for n in SIZES:
-        subprocess.run([sys.executable, __file__, str(n)], check=True)
+    run_per_size(argv, __file__, "| segments | runs scored | findings | solves | find / solve / score s | total s | peak RSS MB | RSS before scan MB |", bench_one, SIZES)
 
 
 if __name__ == "__main__":

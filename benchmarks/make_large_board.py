@@ -11,6 +11,7 @@ the segment count so the copper density stays about the same.
 """
 from __future__ import annotations
 
+import subprocess
 import sys
 
 import numpy as np
@@ -118,3 +119,15 @@ def main(argv: list[str]) -> None:
 
 if __name__ == "__main__":
     main(sys.argv)
+
+
+def run_per_size(argv: list[str], script: str, header: str, bench_one, sizes=(10_000, 100_000, 1_000_000)) -> None:
+    """Benchmark driver: with a size argument run ``bench_one(size)`` here; without, print the table
+    header and run every size in a fresh process of ``script`` (so each peak RSS is its own)."""
+    if len(argv) > 1:
+        print(bench_one(int(argv[1])), flush=True)
+        return
+    print(header)
+    print("|---" * (header.count("|") - 1) + "|", flush=True)
+    for n in sizes:
+        subprocess.run([sys.executable, script, str(n)], check=True)

@@ -194,8 +194,11 @@ def _island_anchor(features: Features, labels: np.ndarray, n_islands: int) -> tu
     return layer, x, y
 
 
-def assign_nets(board: Board) -> Board:
-    """Give every conducting feature and plated hole a net; fill ``board.netting``. Returns the board."""
+def assign_nets(board: Board, named_source: str = "gerber-x2") -> Board:
+    """Give every conducting feature and plated hole a net; fill ``board.netting``. Returns the board.
+
+    ``named_source`` is the netting method reported when the copper already carries net names
+    (the format that named it, e.g. "gerber-x2" or "odbpp-eda")."""
     features = collect_features(board.layers)
     feature_labels, hole_labels, trees = copper_islands(features, board.holes)
     n_islands = int(max(feature_labels.max(initial=-1), hole_labels.max(initial=-1)) + 1)
@@ -239,7 +242,7 @@ def assign_nets(board: Board) -> Board:
     real = np.array([not is_synthetic(n) for n in names] + [False], dtype=bool)[np.where(seg_net >= 0, seg_net, -1)]
     total = float(length.sum())
     fraction = float(length[real].sum() / total) if total > 0 else 0.0
-    method = "gerber-x2" if named.any() else ("netlist+connectivity" if pts is not None and len(pts) else "connectivity")
+    method = named_source if named.any() else ("netlist+connectivity" if pts is not None and len(pts) else "connectivity")
 
     board.layers = layers
     board.nets = names

@@ -10,7 +10,7 @@ from pathlib import Path
 
 from scanner.board import Board
 from scanner.errors import InputError
-from scanner.importers.archive import extract_archive
+from scanner.importers.odbpp.archive import TAR_SUFFIXES, extract_job_archive
 from scanner.importers.registry import choose, discover
 from scanner.importers.sources import list_sources
 
@@ -18,7 +18,8 @@ __all__ = ["load_board"]
 
 
 def load_board(path, board_file=None) -> Board:
-    """Read a board folder or ``.zip`` archive; ``board_file`` overrides ``nearfar-board.toml``."""
+    """Read a board folder or archive (``.zip``; ``.tgz``, ``.tar.gz``, ``.tar`` for ODB++ jobs);
+    ``board_file`` overrides ``nearfar-board.toml``."""
     path = Path(path)
     board_file = None if board_file is None else Path(board_file)
     if board_file is not None and not board_file.is_file():
@@ -26,11 +27,11 @@ def load_board(path, board_file=None) -> Board:
     if not path.exists():
         raise InputError("board folder or archive not found", path=path)
     if path.is_file():
-        if path.suffix.lower() != ".zip":
-            raise InputError("expected a board folder or a .zip archive", path=path)
+        if path.suffix.lower() != ".zip" and not path.name.lower().endswith(TAR_SUFFIXES):
+            raise InputError("expected a board folder, a .zip archive or a .tgz/.tar.gz/.tar ODB++ job", path=path)
         with tempfile.TemporaryDirectory(prefix="nearfar-") as tmp:
             root = Path(tmp)
-            extract_archive(path, root)
+            extract_job_archive(path, root)
             return _load_folder(root, board_file, where=str(path), prefix=f"{path.name}!")
     return _load_folder(path, board_file, where=str(path), prefix=f"{path}/")
 
@@ -42,5 +43,12 @@ def _load_folder(root: Path, board_file: Path | None, where: str, prefix: str) -
     importer = choose(discover(), files, where)
     board = importer.load(root, files, board_file=board_file)
     board.source = where
-    board.name = Path(where).stem if Path(where).suffix.lower() == ".zip" else Path(where).name
+    board.name = _archive_stem(Path(where).name) if Path(where).is_file() else Path(where).name
     return board
+
+
+def _archive_stem(name: str) -> str:
+    for suffix in (".zip",) + TAR_SUFFIXES:
+        if name.lower().endswith(suffix):
+            return name[: -len(suffix)]
+    return name

@@ -29,6 +29,8 @@ from scanner.report.marks import Mark, RoleTraces, has_geometric
 MARGIN_IN = {"left": 0.8, "right": 0.3, "top": 0.55, "bottom": 0.95}
 LABEL_FONT = FontProperties(family="DejaVu Sans", size=7.5, weight="bold")
 LABEL_PAD_PT = 2.0
+#: average glyph width of the default sans-serif font, in em, with some margin (for one-line titles)
+CHAR_WIDTH_EM = 0.62
 MARKER_RADIUS_PT = 3.5
 #: highlighted traces are never drawn thinner than this, so thin runs stay visible at board scale
 MIN_HIGHLIGHT_PT = 1.6
@@ -196,8 +198,15 @@ def title(canvas: Canvas, text: str, detail: str = "") -> None:
     """A heading and a line of detail in the top margin, aligned with the axes' left edge."""
     fig_h = canvas.figure.get_figheight()
     left = canvas.ax.get_position().x0
-    canvas.figure.text(left, 1 - 0.2 / fig_h, text, fontsize=10, color=palette.INK, ha="left", va="center",
-                       wrap=True)
+    room_in = canvas.figure.get_figwidth() * (1 - left) - MARGIN_IN["right"]
+    canvas.figure.text(left, 1 - 0.2 / fig_h, fit_line(text, room_in, 10), fontsize=10, color=palette.INK,
+                       ha="left", va="center")
     if detail:
-        canvas.figure.text(left, 1 - 0.38 / fig_h, detail, fontsize=7.5, color="#6b6357", ha="left", va="center",
-                           wrap=True)
+        canvas.figure.text(left, 1 - 0.38 / fig_h, fit_line(detail, room_in, 7.5), fontsize=7.5, color="#6b6357",
+                           ha="left", va="center")
+
+
+def fit_line(text: str, width_in: float, fontsize_pt: float) -> str:
+    """The text, cut with an ellipsis if it would run past ``width_in`` (a generous estimate of glyph widths)."""
+    room = int(width_in * 72 / (CHAR_WIDTH_EM * fontsize_pt))
+    return text if len(text) <= room else text[:max(room - 1, 1)] + "…"

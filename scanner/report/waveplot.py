@@ -2,10 +2,12 @@
 
 The waveforms come from ``scanner.physics.crosstalk.piecewise_peaks`` (weak
 coupling, docs/physics.md §3) with the finding's own chain of pieces and their
-coefficients, the aggressor's rise time and swing and the victim's termination;
-the orientation shown is the one with the larger near-end noise. The time grid
-contains every breakpoint of the piecewise-linear waveforms, so the plotted peaks
-are the model's exact peaks.
+coefficients and the aggressor's rise time and swing; the orientation shown is the
+one with the larger near-end noise. As in the scan (docs/physics.md, terminations),
+a victim with a high-impedance receiver has each end's curve doubled: the wave
+arriving at an open input doubles, whichever end the receiver sits at. The time
+grid contains every breakpoint of the piecewise-linear waveforms, so the plotted
+peaks are the model's exact peaks.
 """
 from __future__ import annotations
 
@@ -18,9 +20,12 @@ from matplotlib.figure import Figure
 from scanner.board import Board
 from scanner.physics.crosstalk import piecewise_peaks, ramp_duration_s
 from scanner.report import palette
+from scanner.report.overlay import fit_line
 from scanner.score import Hotspot, ScanResult
 
 GRID_POINTS = 1200
+#: gain of the victim's receiver on an arriving wave, by class termination
+RECEIVER_GAIN = {"matched": 1.0, "high-z-receiver": 2.0}
 FIGURE_IN = (8.0, 4.2)
 ODD_MODE = "differential (odd mode)"
 
@@ -34,7 +39,7 @@ class FindingWaveforms:
     far_end_v: np.ndarray
     aggressor_v: np.ndarray
     aggressor: str  # the aggressor net whose run is shown
-    far_end_receiver: str  # "matched" or "high_z"
+    receiver_gain: float  # 2 when both curves are doubled by a high-impedance receiver
 
     @property
     def near_end_peak_v(self) -> float:
@@ -70,15 +75,15 @@ def finding_waveforms(result: ScanResult, board: Board, hotspot: Hotspot) -> Fin
     velocity = coeff.velocity_m_per_s[rows]
     rise_time_s = hotspot.rise_time_ns * 1e-9
     ramp_s = float(ramp_duration_s(rise_time_s))
-    receiver = "high_z" if hotspot.termination == "high-z-receiver" else "matched"
+    gain = RECEIVER_GAIN[hotspot.termination]
     time_s = _time_grid(length_m / velocity, ramp_s)
     noise = piecewise_peaks(coeff.kb[rows], coeff.kf_s_per_m[rows], length_m, velocity, rise_time_s,
-                            hotspot.swing_v, far_end_receiver=receiver, waveforms=True, time_s=time_s)
+                            hotspot.swing_v, far_end_receiver="matched", waveforms=True, time_s=time_s)
     victim = board.net_id(hotspot.victim)
     net_a, net_b = int(runs.net_a[hotspot.run]), int(runs.net_b[hotspot.run])
     aggressor = board.nets[net_b if net_a == victim else net_a]
     edge_v = hotspot.swing_v * np.clip(time_s / ramp_s, 0.0, 1.0)  # the linear ramp of docs/physics.md §3
-    return FindingWaveforms(time_s, noise.near_end_v, noise.far_end_v, edge_v, aggressor, receiver)
+    return FindingWaveforms(time_s, gain * noise.near_end_v, gain * noise.far_end_v, edge_v, aggressor, gain)
 
 
 def _budget_lines(ax, hotspot: Hotspot) -> list[float]:
@@ -108,9 +113,10 @@ def wave_figure(waves: FindingWaveforms, hotspot: Hotspot) -> Figure:
     ax = fig.add_axes((0.09, 0.14, 0.8, 0.68))
     t_ns = waves.time_s * 1e9
     budgets = _budget_lines(ax, hotspot)
-    far_label = "far end (high-impedance receiver: doubled)" if waves.far_end_receiver == "high_z" else "far end"
-    ax.plot(t_ns, waves.near_end_v * 1e3, color=palette.NEAR_END, linewidth=1.7, label="near end", zorder=3)
-    ax.plot(t_ns, waves.far_end_v * 1e3, color=palette.FAR_END, linewidth=1.7, label=far_label, zorder=3)
+    doubled = " (into a high-impedance receiver: doubled)" if waves.receiver_gain != 1 else ""
+    ax.plot(t_ns, waves.near_end_v * 1e3, color=palette.NEAR_END, linewidth=1.7, label="near end" + doubled,
+            zorder=3)
+    ax.plot(t_ns, waves.far_end_v * 1e3, color=palette.FAR_END, linewidth=1.7, label="far end" + doubled, zorder=3)
     for peak_v, values, colour, name in ((waves.near_end_peak_v, waves.near_end_v, palette.NEAR_END, "NEXT"),
                                          (waves.far_end_peak_v, waves.far_end_v, palette.FAR_END, "FEXT")):
         t_peak = t_ns[np.argmax(np.abs(values))]
@@ -138,9 +144,10 @@ def wave_figure(waves: FindingWaveforms, hotspot: Hotspot) -> Figure:
     note = ""
     if hotspot.aggressor_model == ODD_MODE:
         note = f" — run from {waves.aggressor} only; the table combines both members of the pair"
-    fig.text(0.09, 0.93, f"#{hotspot.rank}  {hotspot.victim} (victim) ← {hotspot.aggressor} (aggressor)",
-             fontsize=10, color=palette.INK, ha="left", wrap=True)
-    fig.text(0.09, 0.875, f"{hotspot.coupled_length_mm:.4g} mm coupled on {'+'.join(hotspot.layers)} "
-             f"({hotspot.structure}), swing {hotspot.swing_v:g} V, weak-coupling estimate{note}",
-             fontsize=7.5, color="#6b6357", ha="left", wrap=True)
+    room_in = 0.88 * FIGURE_IN[0]
+    fig.text(0.09, 0.93, fit_line(f"#{hotspot.rank}  {hotspot.victim} (victim) ← {hotspot.aggressor} (aggressor)",
+                                  room_in, 10), fontsize=10, color=palette.INK, ha="left")
+    fig.text(0.09, 0.875, fit_line(f"{hotspot.coupled_length_mm:.4g} mm coupled on {'+'.join(hotspot.layers)} "
+                                   f"({hotspot.structure}), swing {hotspot.swing_v:g} V, weak-coupling estimate{note}",
+                                   room_in, 7.5), fontsize=7.5, color="#6b6357", ha="left")
     return fig

@@ -34,20 +34,10 @@ P 35 20 2 P 0 0
 L 35 15 35 20 0 P 0
 """
 
-GND = """UNITS=MM
-#
-F 2
-$0 r900
-S P 0
-OB 0 0 I
-OS 0 40
-OS 50 40
-OS 50 0
-OS 0 0
-OE
-SE
-P 35 20 0 N 0 0
-"""
+#: the 50 x 40 mm board as one surface island (the plane pour and the profile)
+BOARD_SURFACE = "S P 0\nOB 0 0 I\nOS 0 40\nOS 50 40\nOS 50 0\nOS 0 0\nOE\nSE\n"
+
+GND = "UNITS=MM\n#\nF 2\n$0 r900\n" + BOARD_SURFACE + "P 35 20 0 N 0 0\n"
 
 BOT = """UNITS=MM
 #
@@ -89,16 +79,7 @@ SNT PLN S E 0
 FID C 1 0
 """
 
-PROFILE = """UNITS=MM
-S P 0
-OB 0 0 I
-OS 0 40
-OS 50 40
-OS 50 0
-OS 0 0
-OE
-SE
-"""
+PROFILE = "UNITS=MM\n" + BOARD_SURFACE
 
 ATTRLISTS = {
     "top": "thickness_mm=0.035\n",

@@ -2,6 +2,7 @@
 import io
 import tarfile
 import zipfile
+from pathlib import Path
 
 import pytest
 
@@ -97,3 +98,12 @@ def test_not_an_archive(tmp_path):
     path.write_text("x")
     with pytest.raises(InputError, match="expected an ODB\\+\\+ job folder"):
         load_odbpp(path)
+
+
+def test_load_board_reads_a_tgz_job(tmp_path):
+    demo = Path(__file__).resolve().parents[2] / "fixtures" / "demo-board" / "odbpp"
+    archive = tmp_path / "ml6-logger.tgz"
+    with tarfile.open(archive, "w:gz") as tar:
+        tar.add(demo / "ml6-logger", arcname="ml6-logger")
+    board = load_board(archive)
+    assert board.format == "odbpp" and board.name == "ml6-logger" and len(board.layers) == 6

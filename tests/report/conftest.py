@@ -7,7 +7,6 @@ from click.testing import CliRunner
 import scanner
 from scanner.cli import cli
 from scanner.rules import load_rules
-from scanner.pipeline import run_scan
 
 ROOT = Path(__file__).resolve().parents[2]
 DEMO_BOARD = ROOT / "fixtures" / "demo-board" / "x2"
@@ -24,8 +23,7 @@ def scan_args() -> list[str]:
 def demo_scan():
     """(result, board) of the demo board with the demo rules when present."""
     board = scanner.load_board(DEMO_BOARD)
-    # run_scan directly (the same as scanner.scan)
-    return run_scan(board, load_rules(DEMO_RULES if DEMO_RULES.is_file() else None)), board
+    return scanner.scan(board, load_rules(DEMO_RULES if DEMO_RULES.is_file() else None)), board
 
 
 @pytest.fixture(scope="session")

@@ -25,13 +25,14 @@ def test_plotted_peaks_agree_with_the_scan(demo_scan):
     assert checked >= 10
 
 
-def test_high_impedance_receiver_doubles_the_far_end(demo_scan):
+def test_high_impedance_receiver_doubles_what_arrives(demo_scan):
     result, board = demo_scan
     h = next(h for h in result.hotspots if h.termination == "high-z-receiver" and abs(h.fext_mv) > 1)
-    open_end = finding_waveforms(result, board, h).far_end_peak_v
-    matched = finding_waveforms(result, board, replace(h, termination="matched")).far_end_peak_v
-    # an open (high-impedance) far end doubles the arriving wave: common practice, docs/physics.md §4
-    assert open_end == pytest.approx(2 * matched, rel=1e-9)
+    open_end = finding_waveforms(result, board, h)
+    matched = finding_waveforms(result, board, replace(h, termination="matched"))
+    # an open (high-impedance) input doubles the arriving wave (reflection coefficient +1): common practice
+    assert open_end.far_end_peak_v == pytest.approx(2 * matched.far_end_peak_v, rel=1e-9)
+    assert open_end.near_end_peak_v == pytest.approx(2 * matched.near_end_peak_v, rel=1e-9)
 
 
 def uniform_run(length_mm=100.0, kb=0.04, kf=-2e-10, velocity=1.5e8, rise_ns=0.4, swing=2.0):

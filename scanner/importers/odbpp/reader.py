@@ -53,10 +53,7 @@ def read_job(job: Job, planes: tuple[list[str], str] | None) -> Board:
             warnings.append(summary)
     board = Board(name=job.name, source=job.root.name.rstrip("/!"), format=FORMAT, layers=layers, nets=net_names,
                   holes=_concat_holes(holes), stackup=stackup, outline=outline, warnings=warnings + stack_warnings)
-    assign_nets(board)
-    if any(n is not None for a in artworks for n in np.concatenate([a.segment_net, a.shape_net])):
-        board.netting.method = NETTING_METHOD
-    return board
+    return assign_nets(board, named_source=NETTING_METHOD)
 
 
 def _artwork(job: Job, layer: MatrixLayer, table: FeatureTable, eda: EdaNets | None, outline,

@@ -1,0 +1,64 @@
+"""`nearfar scan` end to end: exit codes, JSON on stdout, files in --out, bad input."""
+import csv
+import json
+from pathlib import Path
+
+import pytest
+
+from scanner.cli import main
+
+ROOT = Path(__file__).resolve().parents[2]
+DEMO = ROOT / "fixtures/demo-board/x2"
+RULES = ROOT / "fixtures/demo-rules.toml"
+
+
+def run(args, capsys):
+    with pytest.raises(SystemExit) as e:
+        main(args)
+    out, err = capsys.readouterr()
+    return e.value.code, out, err
+
+
+def test_demo_scan_fails_and_writes_reports(tmp_path, capsys):
+    code, out, err = run(["scan", str(DEMO), "--rules", str(RULES), "--out", str(tmp_path), "--no-images"], capsys)
+    assert code == 1  # the demo board has planted violations
+    assert "FAIL" in out and "caution:" in out and "CTL_LED" in out
+    report = json.loads((tmp_path / "report.json").read_text())
+    assert report["schema"] == "nearfar.report/1" and report["hotspots"][0]["rank"] == 1
+    rows = list(csv.DictReader((tmp_path / "hotspots.csv").open()))
+    assert len(rows) == len(report["hotspots"])
+    assert rows[0]["victim"] == report["hotspots"][0]["victim"]
+    assert rows[0]["fix_spacing_needed_mm"] != ""
+    assert not list(tmp_path.glob("*.part")) and not list(tmp_path.glob(".*.part"))
+
+
+def test_json_flag_prints_the_report_only(capsys):
+    code, out, err = run(["scan", str(DEMO), "--rules", str(RULES), "--json"], capsys)
+    assert code == 1
+    assert json.loads(out)["board"]["nets"] > 0
+    assert err == ""  # quiet under --json
+
+
+def test_lenient_rules_pass_with_exit_zero(tmp_path, capsys):
+    rules = tmp_path / "lenient.toml"
+    rules.write_text('[[class]]\nname = "all"\nnets = ["*"]\nnext_budget_pct = 95\nfext_budget_pct = 95\n')
+    code, out, _ = run(["scan", str(DEMO), "--rules", str(rules), "--top", "3"], capsys)
+    assert code == 0 and "Overall: PASS" in out
+
+
+@pytest.mark.parametrize("args, needle", [
+    (["scan", "does/not/exist"], "does/not/exist"),
+    (["scan", str(DEMO), "--rules", "missing-rules.toml"], "missing-rules.toml"),
+])
+def test_bad_input_is_one_line_and_exit_2(args, needle, capsys):
+    code, out, err = run(args, capsys)
+    assert code == 2
+    lines = err.strip().splitlines()
+    assert len(lines) == 1 and needle in lines[0] and "Traceback" not in err
+
+
+def test_bad_rules_value_names_the_file(tmp_path, capsys):
+    rules = tmp_path / "r.toml"
+    rules.write_text("[scan]\nangle_tolerance_deg = 80\n")
+    code, _, err = run(["scan", str(DEMO), "--rules", str(rules)], capsys)
+    assert code == 2 and str(rules) in err and "angle_tolerance_deg" in err
