@@ -105,7 +105,7 @@ class CopperLayer:
     index: int
     side: str  # "top" | "inner" | "bottom"
     kind: str  # "signal" | "plane"
-    kind_source: str  # where "kind" came from: "gerber-x2", "job-file", "board-file", "fill-ratio", "rules"
+    kind_source: str  # where "kind" came from: "gerber-x2", "job-file", "board-file", "fill-ratio", "odbpp-matrix"
     path: str | None
     segments: TraceSegments
     shapes: CopperShapes
@@ -175,7 +175,7 @@ class Stackup:
     """Physical build, top to bottom. ``source`` says where it came from."""
 
     layers: tuple[StackupLayer, ...]
-    source: str  # "job-file", "rules", "board-file", "default"
+    source: str  # "job-file", "odbpp-job", "rules", "board-file", "default"
 
     @property
     def total_thickness_mm(self) -> float:
@@ -201,7 +201,7 @@ class NetFault:
 class Netting:
     """How nets were assigned and how well the copper matched the netlist."""
 
-    method: str  # "gerber-x2" | "netlist+connectivity" | "connectivity"
+    method: str  # "gerber-x2" | "odbpp-eda" | "netlist+connectivity" | "connectivity"
     netted_trace_fraction: float
     netlist_points_matched: int
     netlist_points_total: int
@@ -222,7 +222,7 @@ class Netting:
 class Board:
     name: str
     source: str
-    format: str  # e.g. "gerber-x2", "gerber-x1+ipc-d-356"
+    format: str  # e.g. "gerber-x2", "gerber-x1", "gerber-x1+ipc-d-356", "odbpp"
     layers: list[CopperLayer]
     nets: list[str]
     holes: Holes
