@@ -26,7 +26,7 @@ from scanner.score import Hotspot, ScanResult
 GRID_POINTS = 1200
 #: gain of the victim's receiver on an arriving wave, by class termination
 RECEIVER_GAIN = {"matched": 1.0, "high-z-receiver": 2.0}
-FIGURE_IN = (8.0, 4.2)
+FIGURE_IN = (8.0, 4.8)
 ODD_MODE = "differential (odd mode)"
 
 
@@ -86,7 +86,7 @@ def finding_waveforms(result: ScanResult, board: Board, hotspot: Hotspot) -> Fin
     return FindingWaveforms(time_s, gain * noise.near_end_v, gain * noise.far_end_v, edge_v, aggressor, gain)
 
 
-def _budget_lines(ax, hotspot: Hotspot) -> list[float]:
+def _budget_lines(ax, hotspot: Hotspot, ax_limit_mv: float) -> list[float]:
     """The ±budget band(s); returns the budget magnitudes (V) drawn."""
     budgets = {"NEXT": hotspot.next_budget_mv * 1e-3, "FEXT": hotspot.fext_budget_mv * 1e-3}
     finite = {k: v for k, v in budgets.items() if np.isfinite(v)}
@@ -98,6 +98,7 @@ def _budget_lines(ax, hotspot: Hotspot) -> list[float]:
     for name, budget in finite.items():
         colour = palette.BUDGET_LINE if shared else (palette.NEAR_END if name == "NEXT" else palette.FAR_END)
         label = f"budget ±{budget * 1e3:.4g} mV" if shared else f"{name} budget ±{budget * 1e3:.4g} mV"
+        label += " (beyond the scale)" if budget * 1e3 > ax_limit_mv else ""
         for sign in (1, -1):
             ax.axhline(sign * budget * 1e3, color=colour, linestyle=(0, (5, 3)), linewidth=0.9, zorder=1,
                        label=label if sign > 0 else None)
@@ -106,11 +107,22 @@ def _budget_lines(ax, hotspot: Hotspot) -> list[float]:
     return list(finite.values())
 
 
+def _limits_mv(waves: FindingWaveforms, budgets: list[float]) -> tuple[float, float]:
+    """y range (mV) around both curves and the budgets unless these dwarf the noise; zero always inside."""
+    values = np.concatenate([waves.near_end_v, waves.far_end_v])
+    noise_max = max(float(np.abs(values).max()), 1e-6)
+    budget = max([b for b in budgets if b <= 4 * noise_max], default=0.0)
+    high = max(float(values.max()), budget, 0.15 * noise_max)
+    low = min(float(values.min()), -budget, -0.15 * noise_max)
+    room = 0.15 * (high - low)  # headroom for the peak labels
+    return 1e3 * (low - room), 1e3 * (high + room)
+
+
 def wave_figure(waves: FindingWaveforms, hotspot: Hotspot) -> Figure:
     """Near-end and far-end victim noise (mV) with the budget band and the aggressor edge (right axis)."""
     fig = Figure(figsize=FIGURE_IN, facecolor=palette.BACKGROUND)
     FigureCanvasAgg(fig)
-    ax = fig.add_axes((0.09, 0.14, 0.8, 0.68))
+    ax = fig.add_axes((0.09, 0.25, 0.8, 0.58))
     t_ns = waves.time_s * 1e9
     budgets = _budget_lines(ax, hotspot)
     doubled = " (into a high-impedance receiver: doubled)" if waves.receiver_gain != 1 else ""
@@ -123,10 +135,8 @@ def wave_figure(waves: FindingWaveforms, hotspot: Hotspot) -> Figure:
         ax.plot([t_peak], [peak_v * 1e3], "o", color=colour, markersize=4, zorder=4)
         ax.annotate(f"{name} {peak_v * 1e3:.4g} mV", (t_peak, peak_v * 1e3), textcoords="offset points",
                     xytext=(6, 6 if peak_v >= 0 else -12), fontsize=7.5, color=colour, zorder=5)
-    noise_max = max(abs(waves.near_end_peak_v), abs(waves.far_end_peak_v), 1e-6)
-    shown = [b for b in budgets if b <= 4 * noise_max]
-    limit = 1.25 * max([noise_max] + shown) * 1e3
-    ax.set_ylim(-limit, limit)
+    low, high = _limits_mv(waves, budgets)
+    ax.set_ylim(low, high)
     ax.set_xlim(t_ns[0], t_ns[-1])
     ax.axhline(0, color="#b9b1a3", linewidth=0.6, zorder=1)
     ax.set_xlabel("time after the aggressor edge starts (ns)", fontsize=8)
@@ -135,12 +145,14 @@ def wave_figure(waves: FindingWaveforms, hotspot: Hotspot) -> Figure:
     edge_ax = ax.twinx()
     edge_ax.plot(t_ns, waves.aggressor_v, color=palette.EDGE, linestyle=(0, (2, 2)), linewidth=1.1,
                  label=f"aggressor edge, {hotspot.rise_time_ns:g} ns 10–90 % (right axis)")
-    edge_ax.set_ylim(-1.25 * hotspot.swing_v, 1.25 * hotspot.swing_v)
+    edge_top = 1.25 * hotspot.swing_v
+    edge_ax.set_ylim(edge_top * low / high, edge_top)  # zero volts level with zero millivolts
     edge_ax.set_ylabel("aggressor (V)", fontsize=8, color=palette.EDGE)
     edge_ax.tick_params(labelsize=7, colors=palette.EDGE)
     handles, labels = ax.get_legend_handles_labels()
     more_h, more_l = edge_ax.get_legend_handles_labels()
-    ax.legend(handles + more_h, labels + more_l, fontsize=7, loc="lower right", framealpha=0.9)
+    fig.legend(handles + more_h, labels + more_l, fontsize=7, loc="lower center", ncol=2, frameon=False,
+               bbox_to_anchor=(0.49, 0.0))
     note = ""
     if hotspot.aggressor_model == ODD_MODE:
         note = f" — run from {waves.aggressor} only; the table combines both members of the pair"
