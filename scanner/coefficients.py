@@ -115,14 +115,18 @@ def most_used_width(segments_by_layer: dict) -> dict[int, float]:
     return out
 
 
-def _layer_table(env: LayerEnvironment, width_mm: float, max_spacing_mm: float) -> CouplingTable:
+def section_arguments(env: LayerEnvironment) -> dict:
+    """The layer's dielectrics, planes, copper thickness and soldermask as the physics module takes them."""
     away = list(env.away)
     mask = None
     if env.structure == "microstrip" and env.soldermask is not None:
         away = away[:-1]
         mask = env.soldermask
-    return CouplingTable.for_layer(
-        dielectrics_above=away, dielectrics_below=list(env.toward_plane),
-        planes="both" if env.structure == "stripline" else "below",
-        width_mm=width_mm, thickness_mm=env.trace_thickness_mm, soldermask=mask,
-        spacings_mm=np.geomspace(TABLE_MIN_SPACING_MM, max_spacing_mm, TABLE_POINTS))
+    return dict(dielectrics_below=list(env.toward_plane), dielectrics_above=away,
+                planes="both" if env.structure == "stripline" else "below",
+                thickness_mm=env.trace_thickness_mm, soldermask=mask)
+
+
+def _layer_table(env: LayerEnvironment, width_mm: float, max_spacing_mm: float) -> CouplingTable:
+    return CouplingTable.for_layer(width_mm=width_mm, **section_arguments(env),
+                                   spacings_mm=np.geomspace(TABLE_MIN_SPACING_MM, max_spacing_mm, TABLE_POINTS))

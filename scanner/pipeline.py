@@ -7,13 +7,14 @@ direction -> per-victim totals against budgets -> ranking.
 """
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from typing import Callable
 
 import numpy as np
 
 from scanner.board import Board
 from scanner.coefficients import CouplingLookup, most_used_width
+from scanner.exact_check import EXACT_CHECKS, exact_peaks
 from scanner.finder import find_coupled_pieces
 from scanner.fixes import fix_guidance
 from scanner.geometric import check_geometric_limits
@@ -72,7 +73,7 @@ def run_scan(board: Board, rules: Rules | None = None, progress: Progress | None
     noise = _score(rules, roles, directed, runs, kb, kf, velocity)
     listed = _listed(noise, board, rules)
     fixes = fix_guidance(directed, listed[noise.status[listed] > 0], runs, lookup, board)
-    hotspots = _hotspots(board, roles, envs, runs, directed, noise, listed, fixes)
+    hotspots = _with_exact_checks(_hotspots(board, roles, envs, runs, directed, noise, listed, fixes), runs, envs)
     victims = _victim_totals(board, rules, roles, directed, noise)
     geometric = check_geometric_limits(rules, roles, runs, board)
 
@@ -227,6 +228,19 @@ def _hotspots(board, roles: NetRoles, envs, runs: CoupledRuns, d: DirectedRuns, 
             kb_max=c["kb_max"], strong_coupling=c["kb_max"] > STRONG_KB, rise_time_ns=ac.rise_time_ns,
             swing_v=ac.swing_v, termination=vc.termination, victim_swing_v=vc.swing_v, run=rr, direction=jj,
             fix=fixes.get(jj)))
+    return out
+
+
+def _with_exact_checks(hotspots: list[Hotspot], runs, envs) -> list[Hotspot]:
+    """The exact line simulation for the worst strong-coupling findings (single aggressors)."""
+    out = list(hotspots)
+    todo = [i for i, h in enumerate(out) if h.strong_coupling and h.aggressor_model != "differential (odd mode)"]
+    for i in todo[:EXACT_CHECKS]:
+        h = out[i]
+        next_v, fext_v = exact_peaks(runs, h.run, envs, h.rise_time_ns, h.swing_v, h.termination)
+        used = max(abs(next_v) * 1e3 / h.next_budget_mv, abs(fext_v) * 1e3 / h.fext_budget_mv)
+        out[i] = replace(h, exact={"next_mv": round(next_v * 1e3, 3), "fext_mv": round(fext_v * 1e3, 3),
+                                   "budget_used": round(used, 4)})
     return out
 
 

@@ -62,6 +62,7 @@ class Hotspot:
     run: int  # index into the scan's coupled runs
     direction: int  # index into the scan's directed runs
     fix: dict | None = None
+    exact: dict | None = None  # exact line simulation of a strong-coupling finding
 
     def to_dict(self) -> dict:
         d = asdict(self)

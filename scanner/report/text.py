@@ -50,6 +50,12 @@ def render(result: ScanResult, top: int = 20) -> str:
         for r in [header] + rows:
             lines.append("  ".join(c.rjust(w) if i in right else c.ljust(w)
                                    for i, (c, w) in enumerate(zip(r, widths))).rstrip())
+        strong = [h for h in result.hotspots[:top] if h.exact]
+        if strong:
+            lines.append("strong coupling (Kb > 0.1), exact line simulation: " + "; ".join(
+                f"#{h.rank} NEXT {h.exact['next_mv']:.0f} mV, FEXT {h.exact['fext_mv']:.0f} mV "
+                f"({100 * h.exact['budget_used']:.0f}%)" for h in strong[:4])
+                + (f"; … {len(strong) - 4} more" if len(strong) > 4 else ""))
         if len(result.hotspots) > top:
             lines.append(f"… {len(result.hotspots) - top} more hotspots in report.json / hotspots.csv")
     else:

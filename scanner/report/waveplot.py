@@ -86,32 +86,35 @@ def finding_waveforms(result: ScanResult, board: Board, hotspot: Hotspot) -> Fin
     return FindingWaveforms(time_s, gain * noise.near_end_v, gain * noise.far_end_v, edge_v, aggressor, gain)
 
 
-def _budget_lines(ax, hotspot: Hotspot, ax_limit_mv: float) -> list[float]:
-    """The ±budget band(s); returns the budget magnitudes (V) drawn."""
+def _budgets_v(hotspot: Hotspot) -> dict[str, float]:
+    """The finite NEXT and FEXT budgets (V)."""
     budgets = {"NEXT": hotspot.next_budget_mv * 1e-3, "FEXT": hotspot.fext_budget_mv * 1e-3}
-    finite = {k: v for k, v in budgets.items() if np.isfinite(v)}
-    if not finite:
-        return []
-    shared = len(set(finite.values())) == 1
-    inner = min(finite.values())
+    return {k: v for k, v in budgets.items() if np.isfinite(v)}
+
+
+def _budget_lines(ax, budgets: dict[str, float], limits_mv: tuple[float, float]) -> None:
+    """The ±budget band: shaded inside the smaller budget, dashed limits (one pair when NEXT and FEXT agree)."""
+    if not budgets:
+        return
+    shared = len(set(budgets.values())) == 1
+    inner = min(budgets.values())
     ax.axhspan(-inner * 1e3, inner * 1e3, color=palette.BUDGET_BAND, zorder=0)
-    for name, budget in finite.items():
+    for name, budget in budgets.items():
         colour = palette.BUDGET_LINE if shared else (palette.NEAR_END if name == "NEXT" else palette.FAR_END)
         label = f"budget ±{budget * 1e3:.4g} mV" if shared else f"{name} budget ±{budget * 1e3:.4g} mV"
-        label += " (beyond the scale)" if budget * 1e3 > ax_limit_mv else ""
+        label += " (beyond the scale)" if budget * 1e3 > min(-limits_mv[0], limits_mv[1]) else ""
         for sign in (1, -1):
             ax.axhline(sign * budget * 1e3, color=colour, linestyle=(0, (5, 3)), linewidth=0.9, zorder=1,
                        label=label if sign > 0 else None)
         if shared:
             break
-    return list(finite.values())
 
 
-def _limits_mv(waves: FindingWaveforms, budgets: list[float]) -> tuple[float, float]:
+def _limits_mv(waves: FindingWaveforms, budgets: dict[str, float]) -> tuple[float, float]:
     """y range (mV) around both curves and the budgets unless these dwarf the noise; zero always inside."""
     values = np.concatenate([waves.near_end_v, waves.far_end_v])
     noise_max = max(float(np.abs(values).max()), 1e-6)
-    budget = max([b for b in budgets if b <= 4 * noise_max], default=0.0)
+    budget = max([b for b in budgets.values() if b <= 4 * noise_max], default=0.0)
     high = max(float(values.max()), budget, 0.15 * noise_max)
     low = min(float(values.min()), -budget, -0.15 * noise_max)
     room = 0.15 * (high - low)  # headroom for the peak labels
@@ -124,7 +127,9 @@ def wave_figure(waves: FindingWaveforms, hotspot: Hotspot) -> Figure:
     FigureCanvasAgg(fig)
     ax = fig.add_axes((0.09, 0.25, 0.8, 0.58))
     t_ns = waves.time_s * 1e9
-    budgets = _budget_lines(ax, hotspot)
+    budgets = _budgets_v(hotspot)
+    low, high = _limits_mv(waves, budgets)
+    _budget_lines(ax, budgets, (low, high))
     doubled = " (into a high-impedance receiver: doubled)" if waves.receiver_gain != 1 else ""
     ax.plot(t_ns, waves.near_end_v * 1e3, color=palette.NEAR_END, linewidth=1.7, label="near end" + doubled,
             zorder=3)
@@ -135,7 +140,6 @@ def wave_figure(waves: FindingWaveforms, hotspot: Hotspot) -> Figure:
         ax.plot([t_peak], [peak_v * 1e3], "o", color=colour, markersize=4, zorder=4)
         ax.annotate(f"{name} {peak_v * 1e3:.4g} mV", (t_peak, peak_v * 1e3), textcoords="offset points",
                     xytext=(6, 6 if peak_v >= 0 else -12), fontsize=7.5, color=colour, zorder=5)
-    low, high = _limits_mv(waves, budgets)
     ax.set_ylim(low, high)
     ax.set_xlim(t_ns[0], t_ns[-1])
     ax.axhline(0, color="#b9b1a3", linewidth=0.6, zorder=1)

@@ -1,7 +1,6 @@
 """Report images: the files the command writes, markers where the findings are, copper at its true width."""
 import json
 import xml.etree.ElementTree as ET
-from types import SimpleNamespace
 
 import matplotlib.image
 import numpy as np
