@@ -78,7 +78,7 @@ def directed_runs(rules: Rules, roles: NetRoles, runs: CoupledRuns, keep: np.nda
         run=run, aggressor=aggressor, victim=victim,
         swing_v=table(lambda c: c.swing_v)[agg_c],
         ramp_s=table(lambda c: c.rise_time_ns)[agg_c] * 1e-9 * RAMP_PER_RISE,
-        receiver_gain=table(lambda c: 2.0 if c.termination == "high-z-receiver" else 1.0)[vic_c],
+        receiver_gain=table(lambda c: c.receiver_gain)[vic_c],
         next_budget_v=next_budget, fext_budget_v=fext_budget,
         piece_rows=runs.piece_order[_expand(runs.run_start[run], counts)], piece_start=_starts(counts))
 

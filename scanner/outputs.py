@@ -17,6 +17,7 @@ def write_atomic(path: str | Path, data: str | bytes) -> Path:
             fh.write(data)
             fh.flush()
             os.fsync(fh.fileno())
+        os.chmod(tmp, 0o666 & ~_umask())  # mkstemp makes 0600; give the file the usual permissions
         os.replace(tmp, path)
     except BaseException:
         try:
@@ -25,3 +26,9 @@ def write_atomic(path: str | Path, data: str | bytes) -> Path:
             pass
         raise
     return path
+
+
+def _umask() -> int:
+    current = os.umask(0)
+    os.umask(current)
+    return current

@@ -42,11 +42,21 @@ class NetClass:
     fext_budget_mv: float | None = None
     termination: str = "high-z-receiver"
 
+    @property
+    def receiver_gain(self) -> float:
+        return receiver_gain(self.termination)
+
     def next_budget_v(self) -> float:
         return _budget_v(self.next_budget_mv, self.next_budget_pct, self.swing_v)
 
     def fext_budget_v(self) -> float:
         return _budget_v(self.fext_budget_mv, self.fext_budget_pct, self.swing_v)
+
+
+def receiver_gain(termination: str) -> float:
+    """What a victim's receiver makes of an arriving noise wave: an open (high-impedance) input
+    doubles it (reflection coefficient +1); a matched end takes it as it is."""
+    return 2.0 if termination == "high-z-receiver" else 1.0
 
 
 def _budget_v(mv, pct, swing_v) -> float:

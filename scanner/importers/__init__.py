@@ -43,7 +43,8 @@ def _load_folder(root: Path, board_file: Path | None, where: str, prefix: str) -
     importer = choose(discover(), files, where)
     board = importer.load(root, files, board_file=board_file)
     board.source = where
-    board.name = _archive_stem(Path(where).name) if Path(where).is_file() else Path(where).name
+    if not board.name:
+        board.name = _archive_stem(Path(where).name) if Path(where).is_file() else Path(where).name
     return board
 
 

@@ -68,7 +68,7 @@ class GerberImporter:
         if netlist is not None:
             fmt += "+ipc-d-356"
         board = Board(
-            name=Path(where).name, source=where, format=fmt, layers=layers, nets=net_names, holes=holes,
+            name=design_name([c.source.path.name for c in copper]), source=where, format=fmt, layers=layers, nets=net_names, holes=holes,
             stackup=job.stackup if job else None, outline=outline,
             netlist=_netlist_points(netlist, len(layers)) if netlist is not None else None,
             warnings=warnings)
@@ -190,3 +190,14 @@ def _netlist_points(rec: NetlistRecords, n_layers: int) -> NetlistPoints:
     """Access codes to layer indices: 0 through (-1), n copper layer n; numbers past the stack mean the bottom."""
     layer = np.where(rec.access <= 0, -1, np.minimum(rec.access, n_layers) - 1).astype(np.int32)
     return NetlistPoints(rec.net_name, rec.x, rec.y, layer, rec.hole_mm, rec.record, rec.line)
+
+
+def design_name(file_names: list[str]) -> str:
+    """The design's name from what its copper files share ("ml6-logger-F_Cu.gbr", "ml6-logger-B_Cu.gbr"
+    -> "ml6-logger"); empty when they share no word."""
+    stems = [Path(n).stem for n in file_names]
+    if len(stems) < 2:
+        return ""
+    common = os.path.commonprefix(stems)
+    cut = max(common.rfind(sep) for sep in "-_. ")
+    return common[:cut].strip("-_. ") if cut > 0 else ""

@@ -39,13 +39,21 @@ def polygon_path(geometries) -> Path | None:
     return Path(coords, codes)
 
 
+def stroke_bounds(segments: TraceSegments) -> np.ndarray:
+    """(N, 4) bounding boxes x0, y0, x1, y1 of the segments' strokes, round caps included."""
+    half = segments.width / 2
+    return np.column_stack([np.minimum(segments.x0, segments.x1) - half, np.minimum(segments.y0, segments.y1) - half,
+                            np.maximum(segments.x0, segments.x1) + half, np.maximum(segments.y0, segments.y1) + half])
+
+
+def _meets(bounds: np.ndarray, window: Window) -> np.ndarray:
+    x0, y0, x1, y1 = window
+    return (bounds[:, 0] <= x1) & (bounds[:, 2] >= x0) & (bounds[:, 1] <= y1) & (bounds[:, 3] >= y0)
+
+
 def segments_in(segments: TraceSegments, window: Window) -> TraceSegments:
     """Segments whose stroke bounding box meets the window."""
-    x0, y0, x1, y1 = window
-    half = segments.width / 2
-    keep = ((np.minimum(segments.x0, segments.x1) - half <= x1) & (np.maximum(segments.x0, segments.x1) + half >= x0)
-            & (np.minimum(segments.y0, segments.y1) - half <= y1) & (np.maximum(segments.y0, segments.y1) + half >= y0))
-    return segments.select(keep)
+    return segments.select(_meets(stroke_bounds(segments), window))
 
 
 def stroke_collection(segments: TraceSegments, points_per_mm: float, colour: str, zorder: float,
@@ -78,9 +86,7 @@ def draw_copper(ax, layer: CopperLayer, window: Window, points_per_mm: float) ->
     shapes = layer.shapes
     drawn = len(segments)
     if len(shapes):
-        bounds = shapely.bounds(shapes.geometry)
-        x0, y0, x1, y1 = window
-        inside = (bounds[:, 0] <= x1) & (bounds[:, 2] >= x0) & (bounds[:, 1] <= y1) & (bounds[:, 3] >= y0)
+        inside = _meets(shapely.bounds(shapes.geometry), window)
         pour = shapes.role == "region"
         drawn += int(inside.sum())
     raster = drawn > RASTER_ABOVE

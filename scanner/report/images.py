@@ -20,7 +20,7 @@ from matplotlib.patches import Rectangle
 from scanner.board import Board
 from scanner.outputs import write_atomic
 from scanner.report import names, overlay, palette
-from scanner.report.copper import draw_copper, draw_outline
+from scanner.report.copper import draw_copper, draw_outline, stroke_bounds
 from scanner.report.marks import (Finding, Mark, RoleTraces, composite_marks, has_geometric, layer_marks, layer_roles,
                                   layers_with_findings, role_segments, run_rows_on, shown_findings)
 from scanner.report.waveplot import finding_waveforms, wave_figure
@@ -48,18 +48,10 @@ def board_bounds(board: Board) -> tuple[float, float, float, float]:
     """The outline's bounds, else the extent of all copper (mm)."""
     if board.outline is not None and not board.outline.is_empty:
         return tuple(float(v) for v in board.outline.bounds)
-    boxes = [np.array([[0.0, 0.0, 1.0, 1.0]])]
-    for layer in board.layers:
-        s = layer.segments
-        if len(s):
-            half = s.width / 2
-            boxes.append(np.column_stack([np.minimum(s.x0, s.x1) - half, np.minimum(s.y0, s.y1) - half,
-                                          np.maximum(s.x0, s.x1) + half, np.maximum(s.y0, s.y1) + half]))
-        if len(layer.shapes):
-            boxes.append(shapely.bounds(layer.shapes.geometry))
-    if len(boxes) > 1:
-        boxes = boxes[1:]
-    every = np.concatenate(boxes)
+    every = np.concatenate([np.zeros((0, 4))] + [stroke_bounds(layer.segments) for layer in board.layers]
+                           + [shapely.bounds(layer.shapes.geometry) for layer in board.layers if len(layer.shapes)])
+    if not np.isfinite(every).any():
+        return (0.0, 0.0, 1.0, 1.0)
     return (float(np.nanmin(every[:, 0])), float(np.nanmin(every[:, 1])),
             float(np.nanmax(every[:, 2])), float(np.nanmax(every[:, 3])))
 

@@ -98,15 +98,14 @@ def scale_bar(canvas: Canvas) -> np.ndarray:
     return np.array([[0.0, 0.0, length * canvas.points_per_mm + 22.0, 34.0]])
 
 
-def draw_roles(canvas: Canvas, roles: RoleTraces, linestyle: str = "solid", width_floor_pt: float = MIN_HIGHLIGHT_PT):
+def draw_roles(canvas: Canvas, roles: RoleTraces) -> None:
     """Victim traces solid teal, aggressor traces plum with a pale dashed centre line."""
     for segments, colour in ((roles.aggressor, palette.AGGRESSOR), (roles.victim, palette.VICTIM)):
         if len(segments) == 0:
             continue
-        widened = _widened(segments, width_floor_pt / canvas.points_per_mm)
-        canvas.ax.add_collection(stroke_collection(widened, canvas.points_per_mm, colour, Z_HIGHLIGHT,
-                                                   linestyles=linestyle))
-    if len(roles.aggressor) and linestyle == "solid":
+        widened = _widened(segments, MIN_HIGHLIGHT_PT / canvas.points_per_mm)
+        canvas.ax.add_collection(stroke_collection(widened, canvas.points_per_mm, colour, Z_HIGHLIGHT))
+    if len(roles.aggressor):
         dash = _widened(roles.aggressor, 0.0)
         lines = stroke_collection(dash, canvas.points_per_mm, palette.AGGRESSOR_DASH, Z_DASH, linestyles=(0, (3, 3)))
         lines.set_linewidths(np.clip(dash.width * canvas.points_per_mm * 0.3, 0.4, 1.0))
@@ -118,13 +117,11 @@ def _widened(segments: TraceSegments, min_width_mm: float) -> TraceSegments:
                          np.maximum(segments.width, min_width_mm), segments.net)
 
 
-def draw_marks(canvas: Canvas, marks: list[Mark], obstacles: np.ndarray, shaped: bool = False) -> int:
-    """Markers at the findings and rank labels placed clear of each other, joined by leader lines.
-
-    Returns how many labels could not be placed clear of everything.
-    """
+def draw_marks(canvas: Canvas, marks: list[Mark], obstacles: np.ndarray, shaped: bool = False) -> None:
+    """Markers at the findings (shaped by copper side when ``shaped``) and their labels, placed clear of each
+    other and of the obstacles (boxes in axes points), joined to them by leader lines."""
     if not marks:
-        return 0
+        return
     marks = sorted(marks, key=lambda m: m.order)
     ax, ppm = canvas.ax, canvas.points_per_mm
     wx0, wy0 = canvas.window[0], canvas.window[1]
@@ -152,7 +149,6 @@ def draw_marks(canvas: Canvas, marks: list[Mark], obstacles: np.ndarray, shaped:
                 color=palette.STATUS_TEXT[m.status], zorder=Z_LABEL, clip_on=False,
                 bbox=dict(boxstyle=f"round,pad={LABEL_PAD_PT / LABEL_FONT.get_size()}",
                           facecolor=palette.STATUS_COLOUR[m.status], edgecolor="white", linewidth=0.6))
-    return int(layout.crowded.sum())
 
 
 def status_handles(marks: list[Mark]) -> list:
@@ -185,7 +181,8 @@ def copper_handles(has_outline: bool) -> list:
 
 
 def legend(canvas: Canvas, entries: list) -> None:
-    """A one-line legend under the axes; ``entries`` are Patch handles with labels or (handle, label) pairs."""
+    """A legend under the axes, in as many columns as the width allows; ``entries`` are labelled Patch handles
+    or (handle, label) pairs."""
     handles = [e[0] if isinstance(e, tuple) else e for e in entries]
     labels = [e[1] if isinstance(e, tuple) else e.get_label() for e in entries]
     fig_w = canvas.figure.get_figwidth()

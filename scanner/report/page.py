@@ -13,7 +13,7 @@ from pathlib import Path
 
 from scanner.outputs import write_atomic
 from scanner.report import names, palette
-from scanner.report.marks import geometric_label
+from scanner.report.marks import PASS_SHOWN_TOP, geometric_label, shown_findings
 from scanner.score import CAUTION, SCHEMA, Hotspot, ScanResult, VictimTotal
 
 PAGE_FILE = "report.html"
@@ -204,12 +204,17 @@ def _rules(result: ScanResult) -> Markup:
                   + facts(extra))
 
 
+def _layer_stems(result: ScanResult) -> dict[str, str]:
+    return names.layer_stems([layer["name"] for layer in result.board.get("layers", [])])
+
+
 def _maps(result: ScanResult, folder: _Folder) -> Markup:
-    stems = names.layer_stems([layer["name"] for layer in result.board.get("layers", [])])
+    stems = _layer_stems(result)
     parts = [tag("h2", "Where the findings are", id="maps"),
-             tag("p", "Findings over budget and near budget are all drawn, passing ones only among the first "
-                      "ranks. Labels give ranks in the findings table; a label with two ranks is one run scored "
-                      "in both directions. Click an image for the scalable version.", class_="muted")]
+             tag("p", f"Findings over budget and near budget are all drawn, passing ones only among the first "
+                      f"{PASS_SHOWN_TOP} ranks. Labels give ranks in the findings table (G1, G2, …: geometric "
+                      "limits); a label with two ranks is one run scored in both directions. Click an image for "
+                      "the scalable version.", class_="muted")]
     for stem, caption in [(names.COMPOSITE_STEM, "All layers: marker shape gives the side of the finding's main "
                                                 "layer.")] + [(st, f"Layer {name}: copper, victim and aggressor "
                                                                    f"traces, findings.") for name, st in stems.items()]:
@@ -241,6 +246,12 @@ def _fix_text(h: Hotspot) -> Markup:
     return Markup(tag("br").join(esc(o) for o in out))
 
 
+def _used(h: Hotspot) -> Markup:
+    """Share of budget used, with the exact simulation's share under it where one was run."""
+    used = f"{100 * h.budget_used:.0f} %"
+    return two_line(used, f"exact {100 * h.exact['budget_used']:.0f} %") if h.exact else esc(used)
+
+
 def _floor_note(result: ScanResult) -> str:
     floor = result.summary.get("list_floor")
     if floor is None:
@@ -248,16 +259,17 @@ def _floor_note(result: ScanResult) -> str:
     return f" Findings using less than {100 * floor:g} % of their budget are counted in the totals but not listed."
 
 
-def _views(h: Hotspot, folder: _Folder, stems: dict[str, str]) -> list:
-    views = [link(target, text) for target, text in ((names.crop_file(h.rank), "crop"),
-                                                      (names.wave_file(h.rank), "wave"),
-                                                      (f"{stems.get(h.layer, '')}.png", "map"))
-             if folder.has(target)]
+def _views(h: Hotspot, folder: _Folder, stems: dict[str, str], on_map: bool) -> Markup:
+    """Links to the finding's crop and waveform, and to its main layer's map when it is marked there."""
+    targets = [(names.crop_file(h.rank), "crop"), (names.wave_file(h.rank), "wave")]
+    targets += [(f"{stems.get(h.layer, '')}.png", "map")] if on_map else []
+    views = [link(target, text) for target, text in targets if folder.has(target)]
     return tag("span", _joined(views, " · "), class_="views")
 
 
 def _findings(result: ScanResult, folder: _Folder) -> Markup:
-    stems = names.layer_stems([layer["name"] for layer in result.board.get("layers", [])])
+    stems = _layer_stems(result)
+    marked = {f.label for f in shown_findings(result)}
     rows, classes = [], []
     for h in result.hotspots:
         detail = folder.has(names.crop_file(h.rank)) or folder.has(names.wave_file(h.rank))
@@ -266,8 +278,8 @@ def _findings(result: ScanResult, folder: _Folder) -> Markup:
                      two_line(h.aggressor, h.aggressor_class), two_line("+".join(h.layers), h.structure),
                      num(h.coupled_length_mm, 4), num(h.min_spacing_mm),
                      two_line(f"{h.next_mv:.4g}", f"{h.next_pct:.3g} %"), two_line(f"{h.fext_mv:.4g}", f"{h.fext_pct:.3g} %"),
-                     two_line(f"{h.next_budget_mv:.4g}", f"{h.fext_budget_mv:.4g}"), f"{100 * h.budget_used:.0f} %",
-                     two_line(f"{h.x_mm:.2f}", f"{h.y_mm:.2f}"), _fix_text(h), _views(h, folder, stems)])
+                     two_line(f"{h.next_budget_mv:.4g}", f"{h.fext_budget_mv:.4g}"), _used(h),
+                     two_line(f"{h.x_mm:.2f}", f"{h.y_mm:.2f}"), _fix_text(h), _views(h, folder, stems, str(h.rank) in marked)])
         classes.append(f"row-{h.status}")
     headers = ["#", "status", "victim (class)", "aggressor (class)", "layers", "coupled mm", "min spacing mm",
                "NEXT mV (% swing)", "FEXT mV (% swing)", "budget mV NEXT / FEXT", "budget used", "x / y mm",
@@ -283,7 +295,7 @@ def _findings(result: ScanResult, folder: _Folder) -> Markup:
 def _geometric(result: ScanResult, folder: _Folder) -> Markup:
     if not result.geometric:
         return Markup("")
-    stems = names.layer_stems([layer["name"] for layer in result.board.get("layers", [])])
+    stems = _layer_stems(result)
     rows = []
     for i, g in enumerate(result.geometric):
         maps = [link(f"{stems[name]}.png", name) for name in g.layers if folder.has(f"{stems.get(name, '')}.png")]
@@ -316,7 +328,10 @@ def _details(result: ScanResult, folder: _Folder) -> Markup:
                       ("edge", f"{h.rise_time_ns:g} ns 10–90 %, {h.swing_v:g} V"),
                       ("victim ends", h.termination), ("largest Kb", num(h.kb_max)),
                       ("strong coupling", "yes: weak-coupling figures are less accurate" if h.strong_coupling
-                       else "no")])
+                       else "no")]
+                     + ([("exact line simulation", f"NEXT {h.exact['next_mv']:.4g} mV, FEXT {h.exact['fext_mv']:.4g} "
+                                                   f"mV, {100 * h.exact['budget_used']:.0f} % of budget")]
+                        if h.exact else []))
         parts.append(tag("section", [tag("h3", f"#{h.rank} {h.victim} ← {h.aggressor} on {'+'.join(h.layers)}"),
                                      info, tag("div", figures, class_="pair")], id=f"finding-{h.rank}"))
     if len(parts) == 1:
@@ -362,6 +377,10 @@ def _assumptions(result: ScanResult) -> Markup:
         "Findings with a largest backward coefficient over 0.1 are marked as strong coupling: there the weak-coupling "
         "estimate is rougher.",
     ]
+    if any(h.exact for h in result.hotspots):
+        items.append("For the worst strong-coupling findings the run was also simulated with the full coupled-line "
+                     "equations (sections solved with the field solver, resistive ends); those figures are shown as "
+                     "'exact' beside the estimate.")
     if result.stackup.get("source") == "default":
         items.insert(0, "No stackup came with the board or the rules: an assumed evenly spaced build was used, so "
                         "every figure here is provisional.")

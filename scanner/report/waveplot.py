@@ -22,10 +22,9 @@ from scanner.physics.crosstalk import piecewise_peaks, ramp_duration_s
 from scanner.report import palette
 from scanner.report.overlay import fit_line
 from scanner.score import Hotspot, ScanResult
+from scanner.rules import receiver_gain
 
 GRID_POINTS = 1200
-#: gain of the victim's receiver on an arriving wave, by class termination
-RECEIVER_GAIN = {"matched": 1.0, "high-z-receiver": 2.0}
 FIGURE_IN = (8.0, 4.8)
 ODD_MODE = "differential (odd mode)"
 
@@ -75,7 +74,7 @@ def finding_waveforms(result: ScanResult, board: Board, hotspot: Hotspot) -> Fin
     velocity = coeff.velocity_m_per_s[rows]
     rise_time_s = hotspot.rise_time_ns * 1e-9
     ramp_s = float(ramp_duration_s(rise_time_s))
-    gain = RECEIVER_GAIN[hotspot.termination]
+    gain = receiver_gain(hotspot.termination)
     time_s = _time_grid(length_m / velocity, ramp_s)
     noise = piecewise_peaks(coeff.kb[rows], coeff.kf_s_per_m[rows], length_m, velocity, rise_time_s,
                             hotspot.swing_v, far_end_receiver="matched", waveforms=True, time_s=time_s)
@@ -134,12 +133,19 @@ def wave_figure(waves: FindingWaveforms, hotspot: Hotspot) -> Figure:
     ax.plot(t_ns, waves.near_end_v * 1e3, color=palette.NEAR_END, linewidth=1.7, label="near end" + doubled,
             zorder=3)
     ax.plot(t_ns, waves.far_end_v * 1e3, color=palette.FAR_END, linewidth=1.7, label="far end" + doubled, zorder=3)
+    exact = hotspot.exact or {}
     for peak_v, values, colour, name in ((waves.near_end_peak_v, waves.near_end_v, palette.NEAR_END, "NEXT"),
                                          (waves.far_end_peak_v, waves.far_end_v, palette.FAR_END, "FEXT")):
         t_peak = t_ns[np.argmax(np.abs(values))]
         ax.plot([t_peak], [peak_v * 1e3], "o", color=colour, markersize=4, zorder=4)
         ax.annotate(f"{name} {peak_v * 1e3:.4g} mV", (t_peak, peak_v * 1e3), textcoords="offset points",
                     xytext=(6, 6 if peak_v >= 0 else -12), fontsize=7.5, color=colour, zorder=5)
+        exact_mv = exact.get(f"{name.lower()}_mv")
+        if exact_mv is not None:
+            # the exact simulation reports a peak magnitude for NEXT: shown on the estimate's side of zero
+            shown_mv = abs(exact_mv) * np.sign(peak_v) if name == "NEXT" else exact_mv
+            ax.plot([t_peak], [shown_mv], "x", color=colour, markersize=7, markeredgewidth=1.6, zorder=4,
+                    label="exact line simulation, peak" if name == "NEXT" else None)
     ax.set_ylim(low, high)
     ax.set_xlim(t_ns[0], t_ns[-1])
     ax.axhline(0, color="#b9b1a3", linewidth=0.6, zorder=1)
@@ -159,11 +165,13 @@ def wave_figure(waves: FindingWaveforms, hotspot: Hotspot) -> Figure:
                bbox_to_anchor=(0.49, 0.0))
     note = ""
     if hotspot.aggressor_model == ODD_MODE:
-        note = f" — run from {waves.aggressor} only; the table combines both members of the pair"
+        note = f"; run of {waves.aggressor} only, the table combines both members"
+    if exact:
+        note += f"; exact simulation NEXT {exact['next_mv']:.4g} mV, FEXT {exact['fext_mv']:.4g} mV"
     room_in = 0.88 * FIGURE_IN[0]
     fig.text(0.09, 0.93, fit_line(f"#{hotspot.rank}  {hotspot.victim} (victim) ← {hotspot.aggressor} (aggressor)",
                                   room_in, 10), fontsize=10, color=palette.INK, ha="left")
-    fig.text(0.09, 0.875, fit_line(f"{hotspot.coupled_length_mm:.4g} mm coupled on {'+'.join(hotspot.layers)} "
-                                   f"({hotspot.structure}), swing {hotspot.swing_v:g} V, weak-coupling estimate{note}",
+    fig.text(0.09, 0.875, fit_line(f"{hotspot.coupled_length_mm:.4g} mm on {'+'.join(hotspot.layers)} "
+                                   f"({hotspot.structure}), {hotspot.swing_v:g} V swing, weak-coupling model{note}",
                                    room_in, 7.5), fontsize=7.5, color="#6b6357", ha="left")
     return fig

@@ -1,6 +1,7 @@
 """Report images: the files the command writes, markers where the findings are, copper at its true width."""
 import json
 import xml.etree.ElementTree as ET
+from dataclasses import replace
 
 import matplotlib.image
 import numpy as np
@@ -11,7 +12,8 @@ from scanner.board import CopperLayer, CopperShapes, TraceSegments
 from scanner.cli import cli
 from scanner.report import names, overlay, palette
 from scanner.report.copper import draw_copper
-from scanner.report.images import DETAIL_TOP, composite_figure, layer_figure
+from scanner.report.images import DETAIL_TOP, composite_figure, layer_figure, write_images
+from scanner.report.page import write_page
 from scanner.report.marks import composite_marks, layer_marks, layers_with_findings, shown_findings
 
 
@@ -123,3 +125,12 @@ def test_report_json_and_images_agree_on_ranks(report_dir):
     hotspots = json.loads((report_dir / "report.json").read_text())["hotspots"]
     for h in hotspots[:DETAIL_TOP]:
         assert (report_dir / names.crop_file(h["rank"])).is_file()
+
+
+def test_a_board_without_findings_still_gets_its_map_and_page(demo_scan, tmp_path):
+    result, board = demo_scan
+    quiet = replace(result, hotspots=[], geometric=[])
+    written = {p.name for p in write_images(quiet, board, tmp_path)}
+    assert written == {f"{names.COMPOSITE_STEM}.png", f"{names.COMPOSITE_STEM}.svg"}
+    page = write_page(quiet, tmp_path).read_text(encoding="utf-8")
+    assert f'src="{names.COMPOSITE_STEM}.png"' in page and "hotspot-" not in page

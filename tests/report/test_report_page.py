@@ -86,6 +86,8 @@ def test_page_lists_every_finding_and_victim(report_dir):
         assert section in page.ids
     if data["geometric"]:
         assert "geometric" in page.ids
+    if any(h.get("exact") for h in data["hotspots"]):
+        assert "exact line simulation" in text
     assert data["rules"]["source"] in text
     for layer in data["board"]["layers"]:
         assert layer["name"] in text

@@ -84,3 +84,12 @@ def test_figure_shows_both_budgets_and_the_edge():
     assert max(max(line.get_ydata()) for line in edge.lines) == pytest.approx(h.swing_v)
     low, high = main.get_ylim()
     assert low <= -h.next_budget_mv and high >= h.next_budget_mv
+
+
+def test_odd_mode_finding_names_the_member_its_run_belongs_to():
+    result, board, h = uniform_run()
+    odd = replace(h, aggressor="B / B_N", aggressor_model=ODD_MODE)
+    waves = finding_waveforms(result, board, odd)
+    assert waves.aggressor == "B"
+    texts = " ".join(t.get_text() for t in wave_figure(waves, odd).texts)
+    assert "run of B only" in texts and "combines both members" in texts
