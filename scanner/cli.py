@@ -6,7 +6,7 @@ import sys
 
 import click
 
-from scanner.errors import InputError
+from scanner.errors import InputError, printable
 
 #: subcommands, each a module in scanner.commands exposing a click command named ``command``
 COMMAND_MODULES = ("inspect", "section", "scan")
@@ -43,7 +43,7 @@ def main(argv=None) -> int:
         return _exit(exc.exit_code)
     except OSError as exc:
         where = f"{exc.filename}: " if exc.filename else ""
-        click.echo(f"nearfar: error: {where}{exc.strerror or exc}", err=True)
+        click.echo(f"nearfar: error: {printable(f'{where}{exc.strerror or exc}')}", err=True)
         return _exit(2)
     return _exit(rv if isinstance(rv, int) else 0)
 

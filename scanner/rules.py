@@ -15,7 +15,8 @@ from pathlib import Path
 import numpy as np
 
 from scanner.board import Stackup, StackupLayer
-from scanner.errors import InputError
+from scanner.errors import InputError, printable
+from scanner.limits import read_input
 
 TERMINATIONS = ("matched", "high-z-receiver")
 DIFF_AGGRESSOR_MODELS = ("two-lines", "odd-mode")
@@ -275,18 +276,18 @@ def load_rules(path: str | Path | None) -> Rules:
     if path is None:
         return Rules()
     path = Path(path)
+    if not path.exists():
+        raise InputError("rules file not found", path)
     try:
-        text = path.read_text(encoding="utf-8")
-    except FileNotFoundError:
-        raise InputError("rules file not found", path) from None
-    except (OSError, UnicodeDecodeError) as exc:
-        raise InputError(f"cannot read rules file ({exc.__class__.__name__})", path) from None
+        text = read_input(path, str(path), "rules file").decode("utf-8")
+    except UnicodeDecodeError as exc:
+        raise InputError(f"rules file is not UTF-8 text (byte {exc.start})", path) from None
     try:
         doc = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
         line = getattr(exc, "lineno", None) or _toml_line(str(exc))
         raise InputError(f"not valid TOML: {str(exc).split(' (at')[0]}", path, line) from None
-    return parse_rules(doc, str(path))
+    return parse_rules(doc, printable(str(path)))
 
 
 def _toml_line(msg: str):
@@ -354,7 +355,10 @@ def parse_rules(doc: dict, source: str) -> Rules:
     power_patterns = tuple(power_nets) if replace else DEFAULT_POWER_PATTERNS + tuple(power_nets)
 
     pairs = []
-    for i, raw in enumerate(doc.get("diff_pair", [])):
+    raw_pairs = doc.get("diff_pair", [])
+    if not isinstance(raw_pairs, list):
+        raise bad("[[diff_pair]] must be an array of tables")
+    for i, raw in enumerate(raw_pairs):
         if not isinstance(raw, dict) or set(raw) != {"positive", "negative"}:
             raise bad(f"[[diff_pair]] #{i + 1} needs exactly 'positive' and 'negative' patterns")
         if not all(isinstance(v, str) and v for v in raw.values()):
@@ -444,7 +448,7 @@ def _typed(raw, schema: dict, where: str, bad) -> dict:
             raise bad(f"{where}: unknown key '{key}'; allowed: {', '.join(schema)}")
         want = schema[key]
         if want is float and isinstance(value, int) and not isinstance(value, bool):
-            value = float(value)
+            value = float(value) if abs(value) < 2 ** 1023 else float("inf")  # refused below as not finite
         if not isinstance(value, want) or (want is not bool and isinstance(value, bool)):
             raise bad(f"{where}: '{key}' must be {want.__name__}, got {type(value).__name__}")
         if want is float and not np.isfinite(value):

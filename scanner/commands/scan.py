@@ -8,6 +8,7 @@ from pathlib import Path
 import click
 
 from scanner import load_board, scan
+from scanner.errors import InputError
 from scanner.report.files import write_tables, report_json
 from scanner.report.images import write_images
 from scanner.report.page import write_page
@@ -40,6 +41,9 @@ def command(board, rules_path, board_file, out_dir, top, as_json, no_images):
         if show_progress:
             click.echo(f"[{time.perf_counter() - started:6.1f} s] {msg}", err=True)
 
+    if out_dir is not None and board.is_dir() and out_dir.resolve() == board.resolve():
+        raise InputError("the output folder is the board folder: reports could overwrite input files "
+                         "(give a separate folder, or a subfolder)", path=out_dir)
     rules = load_rules(rules_path)
     progress(f"reading {board}")
     the_board = load_board(board, board_file=board_file)

@@ -9,7 +9,7 @@ import tempfile
 from pathlib import Path
 
 from scanner.board import Board
-from scanner.errors import InputError
+from scanner.errors import InputError, printable
 from scanner.importers.odbpp.archive import TAR_SUFFIXES, extract_job_archive
 from scanner.importers.registry import choose, discover
 from scanner.importers.sources import list_sources
@@ -32,8 +32,8 @@ def load_board(path, board_file=None) -> Board:
         with tempfile.TemporaryDirectory(prefix="nearfar-") as tmp:
             root = Path(tmp)
             extract_job_archive(path, root)
-            return _load_folder(root, board_file, where=str(path), prefix=f"{path.name}!")
-    return _load_folder(path, board_file, where=str(path), prefix=f"{path}/")
+            return _load_folder(root, board_file, where=printable(str(path)), prefix=f"{path.name}!")
+    return _load_folder(path, board_file, where=printable(str(path)), prefix=f"{path}/")
 
 
 def _load_folder(root: Path, board_file: Path | None, where: str, prefix: str) -> Board:
@@ -45,6 +45,7 @@ def _load_folder(root: Path, board_file: Path | None, where: str, prefix: str) -
     board.source = where
     if not board.name:
         board.name = _archive_stem(Path(where).name) if Path(where).is_file() else Path(where).name
+    board.name = printable(board.name)  # the importer may take it from file names or the design's own files
     return board
 
 

@@ -1,15 +1,24 @@
 """Gerber apertures as shapely outlines (mm, centred on the origin) and as drawing widths."""
 from __future__ import annotations
 
+import dataclasses
+
 import numpy as np
 import shapely
 from gerbonara import graphic_primitives as gp
+from gerbonara.aperture_macros import primitive as macro_primitive
+from gerbonara.apertures import ApertureMacroInstance, PolygonAperture
 from gerbonara.utils import MM
 
 from scanner.importers.arcs import flatten_arcs, ring_points
+from scanner.limits import coordinate_problem
 
 #: circle resolution for pads and drawn ends (segments per quarter turn)
 QUAD_SEGS = 8
+#: vertices of a polygon aperture or macro polygon (the Gerber specification allows 3 to 12)
+POLYGON_VERTICES = (3, 12)
+#: rings of a moire macro primitive (a deprecated target mark; real ones have a handful)
+MAX_MOIRE_RINGS = 100
 
 
 def arc_poly_polygon(outline, arc_centers) -> shapely.Geometry:
@@ -50,6 +59,40 @@ def primitive_geometry(prim) -> shapely.Geometry:
         return arc_poly_polygon(prim.outline, prim.arc_centers or [])
     poly = prim.to_arc_poly()
     return arc_poly_polygon(poly.outline, poly.arc_centers or [])
+
+
+def aperture_problem(aperture) -> str | None:
+    """Why flashing ``aperture`` cannot give real copper (too many vertices or rings, absurd size, a shape
+    the parser cannot draw); None if it can. Checked when the aperture is defined, counts first so that
+    no huge outline is ever built."""
+    counts = []
+    if isinstance(aperture, PolygonAperture):
+        counts.append(("polygon vertices", aperture.n_vertices, *POLYGON_VERTICES))
+    elif isinstance(aperture, ApertureMacroInstance):
+        binding = dict(enumerate(aperture.parameters, start=1))
+        for prim in aperture.macro.primitives:
+            if isinstance(prim, macro_primitive.Polygon):
+                counts.append(("polygon vertices", prim.n_vertices.calculate(binding), *POLYGON_VERTICES))
+            elif isinstance(prim, macro_primitive.Moire):
+                counts.append(("moire rings", prim.num_circles.calculate(binding), 0, MAX_MOIRE_RINGS))
+    for what, count, low, high in counts:
+        if not low <= count <= high:
+            return f"aperture D{aperture.original_number} asks for {count:g} {what}; allowed {low} to {high}"
+    try:
+        primitives = aperture.flash(0.0, 0.0, MM, True)
+    except Exception as exc:  # noqa: BLE001 - gerbonara 1.5 fails on some macro primitives (thermal, moire)
+        return f"aperture D{aperture.original_number} cannot be drawn ({type(exc).__name__}: {exc})"
+    largest = max((_largest(getattr(p, f.name)) for p in primitives for f in dataclasses.fields(p)), default=0.0)
+    return coordinate_problem(largest)
+
+
+def _largest(value) -> float:
+    """Largest magnitude among the numbers in a primitive's field (nested tuples and lists of points)."""
+    if isinstance(value, (int, float)) and not isinstance(value, bool):
+        return abs(value)
+    if isinstance(value, (list, tuple)):
+        return max(map(_largest, value), default=0.0)
+    return 0.0
 
 
 def aperture_outline(aperture) -> shapely.Geometry:

@@ -4,6 +4,7 @@ from __future__ import annotations
 import numpy as np
 
 from scanner.board import ARC_CHORD_TOLERANCE_MM
+from scanner.limits import SEGMENTS, check_count
 
 #: upper bound on pieces per arc, so a corrupt radius cannot exhaust memory
 MAX_PIECES_PER_ARC = 4096
@@ -25,6 +26,7 @@ def flatten_arcs(x0, y0, x1, y1, cx, cy, clockwise, tolerance_mm: float = ARC_CH
 
     Centres are absolute. Returns ``(counts, px, py)``: arc ``k`` owns ``counts[k]`` consecutive points.
     Start and end radii may differ slightly (file rounding); the radius is blended linearly along the sweep.
+    More pieces in one call than the segment limit (``scanner.limits``) is an InputError.
     """
     x0, y0, x1, y1, cx, cy = (np.asarray(v, dtype=np.float64) for v in (x0, y0, x1, y1, cx, cy))
     clockwise = np.asarray(clockwise, dtype=bool)
@@ -35,6 +37,7 @@ def flatten_arcs(x0, y0, x1, y1, cx, cy, clockwise, tolerance_mm: float = ARC_CH
     cos_half = np.clip(1.0 - tolerance_mm / np.maximum(radius, 1e-12), -1.0, 1.0)
     step = np.maximum(2.0 * np.arccos(cos_half), 1e-6)
     pieces = np.clip(np.ceil(np.abs(sweep) / step), 1, MAX_PIECES_PER_ARC).astype(np.int64)
+    check_count(int(pieces.sum()), SEGMENTS, "straight pieces from arcs")  # before the points are allocated
     counts = pieces + 1
     owner = np.repeat(np.arange(len(x0)), counts)
     first = np.cumsum(counts) - counts

@@ -12,6 +12,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from scanner.errors import InputError
+from scanner.limits import read_input
 
 BOARD_FILE_NAME = "nearfar-board.toml"
 
@@ -40,9 +41,7 @@ def _strings(value, key: str, path: str) -> list[str]:
 def read_board_file(path: Path, display_name: str | None = None) -> BoardFile:
     name = display_name or str(path)
     try:
-        data = tomllib.loads(path.read_bytes().decode("utf-8"))
-    except OSError as exc:
-        raise InputError(f"cannot read board file: {exc.strerror or exc}", path=name) from exc
+        data = tomllib.loads(read_input(path, name, "board file").decode("utf-8"))
     except (UnicodeDecodeError, tomllib.TOMLDecodeError) as exc:
         raise InputError(f"board file is not valid TOML: {exc}", path=name) from exc
     known = {"layers", "planes", "netlist", "drills"}

@@ -7,13 +7,14 @@ from pathlib import Path
 
 import numpy as np
 from gerbonara import graphic_objects as go
-from gerbonara.excellon import ExcellonFile
+from gerbonara.excellon import ExcellonParser, ProgramState
 from gerbonara.utils import MM
 
 from scanner.board import Holes, NO_NET
 from scanner.errors import InputError
 from scanner.importers.diagnostics import FileWarnings
-from scanner.importers.gerber_copper import PARSER_ERRORS, _split_location
+from scanner.importers.gerber_copper import PARSER_ERRORS, CheckedObjects, _split_location
+from scanner.limits import coordinate_problem, read_input
 
 _NON_PLATED_NAME = re.compile(r"npth|non[-_ ]?plated|unplated|nplt|np[-_.]", re.I)
 _PLATED_NAME = re.compile(r"pth|plated|plt", re.I)
@@ -29,6 +30,30 @@ class DrillFile:
     plating_source: str  # "file" (attributes or comments), "board-file", "job-file", "file-name", "assumed"
     slot_count: int
     log: FileWarnings
+
+
+class _DrillObjects(CheckedObjects):
+    """Holes and routes as parsed: the tool diameter is checked with the coordinates."""
+
+    def append(self, obj):
+        tool = obj.aperture
+        if (problem := coordinate_problem(tool.unit.convert_to(MM, abs(tool.diameter)) if tool.unit
+                                          else abs(tool.diameter))) is not None:
+            raise ValueError(f"tool diameter: {problem}")
+        super().append(obj)
+
+
+class _DrillParser(ExcellonParser):
+    """gerbonara's Excellon parser, refusing holes it would drop: coordinates before any tool is chosen."""
+
+    def __init__(self):
+        super().__init__()
+        self.objects = _DrillObjects("holes and routes")
+
+    def ensure_active_tool(self):
+        if self.active_tool is None:
+            raise ValueError("hole or route before any tool is selected")
+        return self.active_tool
 
 
 def plating_from_name(name: str) -> bool | None:
@@ -48,16 +73,17 @@ def read_drills(path: Path, display_name: str | None = None, plated: bool | None
     """
     name = display_name or str(path)
     log = FileWarnings(name)
-    try:
-        text = path.read_bytes().decode("utf-8", errors="replace")
-    except OSError as exc:
-        raise InputError(f"cannot read drill file: {exc.strerror or exc}", path=name) from exc
+    text = read_input(path, name, "drill file").decode("utf-8", errors="replace")
+    drills = _DrillParser()
     try:
         with log.capturing():
-            drills = ExcellonFile.from_string(text, filename=Path(name).name)
+            drills.do_parse(text, filename=Path(name).name)
     except PARSER_ERRORS as exc:
-        line, message = _split_location(str(exc), None)
+        line, message = _split_location(exc, None)
         raise InputError(f"unreadable Excellon drill file: {message}", path=name, line=line) from exc
+    if drills.program_state is not ProgramState.FINISHED:
+        raise InputError("drill file ends without its M30 end of program; it looks truncated", path=name,
+                         line=len(text.splitlines()))
 
     source = plated_source
     per_tool = False
@@ -77,7 +103,7 @@ def read_drills(path: Path, display_name: str | None = None, plated: bool | None
     xs, ys, ds, mixed = [], [], [], []
     slots = 0
     for obj in drills.objects:
-        unit = obj.unit or drills.import_settings.unit
+        unit = obj.unit or drills.settings.unit
         to_mm = unit.convert_to(MM, 1.0) if unit is not None else 1.0
         dia = obj.aperture.unit.convert_to(MM, obj.aperture.diameter) if obj.aperture.unit else obj.aperture.diameter * to_mm
         if isinstance(obj, go.Flash):

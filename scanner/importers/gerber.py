@@ -15,11 +15,15 @@ from scanner.importers.excellon import read_drills
 from scanner.importers.gerber_copper import CopperArtwork, read_copper
 from scanner.importers.ipc356 import NetlistRecords, read_ipc356
 from scanner.importers.jobfile import JobFile, read_job_file
-from scanner.importers.layer_order import CopperFile, copper_files
+from scanner.importers.layer_order import CopperFile, copper_files, guess_from_name
 from scanner.importers.outline import find_profile, read_outline
-from scanner.importers.planes import classify_planes
-from scanner.importers.sources import SourceFile
+from scanner.importers.planes import classify_planes, copper_box
+from scanner.importers.sources import SourceFile, folder_name, named_kind
+from scanner.limits import SEGMENTS, check_count
 from scanner.netmap import assign_nets
+
+#: netlist points further than this outside the board's outline (or copper extent) are off the board (mm)
+OFF_BOARD_MARGIN_MM = 1.0
 
 
 class GerberImporter:
@@ -34,10 +38,11 @@ class GerberImporter:
         return 2.0 if any(f.is_copper_x2 for f in gerbers) else 1.0
 
     def load(self, root: Path, files: list[SourceFile], board_file: Path | None = None) -> Board:
-        where = str(root)
+        where = folder_name(files)
         by_rel = {f.rel: f for f in files}
         board_cfg = _board_file(files, board_file)
         job = _job_file(files)
+        unread = _unread_files(files, job, board_cfg)
         gerbers = [f for f in files if f.kind == "gerber"]
         copper, order_source = copper_files(gerbers, board_cfg.layers if board_cfg else None,
                                             board_cfg.path if board_cfg else None,
@@ -46,7 +51,8 @@ class GerberImporter:
             raise InputError("no copper layers found (no X2 .FileFunction, job file or recognisable file names; "
                              f"list them in {BOARD_FILE_NAME})", path=where)
         artworks = read_copper_files([(c.source.path, c.source.name) for c in copper])
-        warnings = []
+        check_count(sum(len(a.x0) for a in artworks), SEGMENTS, "trace segments on the board", where)
+        warnings = unread + (job.warnings if job else [])
         net_names = sorted({n for a in artworks for n in np.concatenate([a.segment_net, a.shape_net]) if n})
         net_index = {n: i for i, n in enumerate(net_names)}
         layers = [_layer(k, c, a, net_index) for k, (c, a) in enumerate(zip(copper, artworks))]
@@ -58,6 +64,8 @@ class GerberImporter:
 
         holes, drill_logs = _holes(files, by_rel, board_cfg, job)
         netlist = _netlist(files, by_rel, board_cfg)
+        if netlist is not None and (off := _off_board(netlist, layers, outline)):
+            warnings.append(off)
         for a in artworks:
             if (s := a.log.summary()):
                 warnings.append(s)
@@ -122,8 +130,62 @@ def _board_file(files: list[SourceFile], explicit: Path | None) -> BoardFile | N
 
 
 def _job_file(files: list[SourceFile]) -> JobFile | None:
+    """The job file, if any; every copper file it lists must be in the folder."""
     jobs = [f for f in files if f.kind == "job"]
-    return read_job_file(jobs[0].path, jobs[0].name) if jobs else None
+    if not jobs:
+        return None
+    job = read_job_file(jobs[0].path, jobs[0].name)
+    present = {f.path.name for f in files}
+    missing = sorted(n for n, fn in job.file_functions.items() if fn[0] == "Copper" and n not in present)
+    if missing:
+        raise InputError(f"lists copper file(s) missing from the board: {', '.join(missing)}", path=job.path)
+    return job
+
+
+#: by the format a file's name promises: how messages call the format, and what the board needs the file for
+_PROMISED = {"gerber": ("Gerber", "a copper layer"), "excellon": ("Excellon drill", "the holes that join layers"),
+             "ipc356": ("IPC-D-356 netlist", "the net names")}
+
+
+def _unread_files(files: list[SourceFile], job: JobFile | None, cfg: BoardFile | None) -> list[str]:
+    """Files named like Gerber, drill or netlist files whose content is not: an error when the board needs
+    them (leaving one out would change the nets), otherwise a warning each."""
+    warnings = []
+    for f in files:
+        if f.kind != "other" or (promised := named_kind(f.path.name)) is None:
+            continue
+        fmt, use = _PROMISED[promised]
+        why = "empty" if f.path.stat().st_size == 0 else f"not a readable {fmt} file (content not recognised)"
+        if promised == "excellon":
+            needed = cfg is None or cfg.drills is None
+        elif promised == "ipc356":
+            needed = cfg is None or not cfg.netlist
+        else:
+            needed = ((job is not None and job.file_functions.get(f.path.name, ("",))[0] == "Copper")
+                      or ((cfg is None or not cfg.layers) and guess_from_name(f.path.name) is not None))
+        if needed:
+            raise InputError(f"{why}; by its name it holds {use}", path=f.name)
+        warnings.append(f"{f.name}: not read: {why}")
+    return warnings
+
+
+def _off_board(netlist: NetlistRecords, layers: list[CopperLayer], outline) -> str | None:
+    """A warning for netlist points off the board; none of them on it is an error (wrong units or board)."""
+    box = copper_box(layers, outline)
+    if box is None:
+        return None
+    x0, y0, x1, y1 = box
+    m = OFF_BOARD_MARGIN_MM
+    off = (netlist.x < x0 - m) | (netlist.x > x1 + m) | (netlist.y < y0 - m) | (netlist.y > y1 + m)
+    if not off.any():
+        return None
+    extent = f"board x {x0:.3f} to {x1:.3f} mm, y {y0:.3f} to {y1:.3f} mm"
+    if off.all():
+        raise InputError(f"none of the netlist's {len(off)} points lies on the board ({extent}); "
+                         "are its units or the board wrong?", path=netlist.path)
+    k = int(np.flatnonzero(off)[0])
+    return (f"{netlist.path}: {int(off.sum())} of {len(off)} netlist points lie off the board ({extent}), the "
+            f"first on line {netlist.line[k]} at ({netlist.x[k]:.3f}, {netlist.y[k]:.3f}) mm; they name no copper")
 
 
 def _layer(index: int, copper: CopperFile, art: CopperArtwork, net_index: dict) -> CopperLayer:
@@ -182,7 +244,7 @@ def _netlist(files, by_rel, cfg: BoardFile | None) -> NetlistRecords | None:
     found = [f for f in files if f.kind == "ipc356"]
     if len(found) > 1:
         raise InputError(f"several IPC-D-356 netlists ({', '.join(f.rel for f in found)}); name one as "
-                         f"'netlist' in {BOARD_FILE_NAME}", path=str(found[0].path.parent))
+                         f"'netlist' in {BOARD_FILE_NAME}", path=folder_name(files))
     return read_ipc356(found[0].path, found[0].name) if found else None
 
 

@@ -10,12 +10,14 @@ import shapely
 from gerbonara import graphic_objects as go
 from gerbonara.apertures import CircleAperture
 from gerbonara.rs274x import GerberFile, GerberParser
-from gerbonara.utils import MM
+from gerbonara.utils import Inch, MM
 
-from scanner.errors import InputError
-from scanner.importers.apertures import QUAD_SEGS, aperture_outline, arc_poly_polygon, swept_width_mm
+from scanner.errors import InputError, printable
+from scanner.importers.apertures import (QUAD_SEGS, aperture_outline, aperture_problem, arc_poly_polygon,
+                                         swept_width_mm)
 from scanner.importers.arcs import flatten_arcs
 from scanner.importers.diagnostics import FileWarnings
+from scanner.limits import OBJECTS, SEGMENTS, check_count, coordinate_problem, limit, read_input
 
 #: draws shorter than this (mm) are flashes in disguise and become pads
 ZERO_LENGTH_MM = 1e-6
@@ -49,20 +51,69 @@ class CopperArtwork:
         return any(n is not None for n in self.segment_net) or any(n is not None for n in self.shape_net)
 
 
-class _ObjectList(list):
+#: gerbonara unit -> mm per file unit
+MM_PER_UNIT = {MM: 1.0, Inch: Inch.convert_to(MM, 1.0)}
+
+
+def extent_mm(obj) -> float:
+    """Largest absolute coordinate (mm) of a gerbonara graphic object, arc centres and region vertices included."""
+    kind = type(obj)
+    if kind is go.Line:
+        values = (obj.x1, obj.y1, obj.x2, obj.y2)
+    elif kind is go.Flash:
+        values = (obj.x, obj.y)
+    elif kind is go.Arc:
+        values = (obj.x1, obj.y1, obj.x2, obj.y2, obj.x1 + obj.cx, obj.y1 + obj.cy)
+    elif kind is go.Region:
+        values = [v for point in obj.outline for v in point]
+        values += [v for arc in obj.arc_centers if arc and arc[0] is not None for v in arc[1]]
+    else:
+        return 0.0
+    largest = max(map(abs, values), default=0.0)
+    return largest * MM_PER_UNIT.get(obj.unit, 1.0)
+
+
+class CheckedObjects(list):
+    """The list a gerbonara parser appends graphic objects to: refuses absurd coordinates and too many objects.
+
+    Refusals are raised as ValueError; the parser reports them with the file name and line.
+    """
+
+    def __init__(self, what: str):
+        super().__init__()
+        self._what = what
+        self._most = limit(OBJECTS)
+
+    def append(self, obj):
+        if len(self) >= self._most:
+            check_count(len(self) + 1, OBJECTS, self._what)
+        if (problem := coordinate_problem(extent_mm(obj))) is not None:
+            raise ValueError(problem)
+        super().append(obj)
+
+
+class _ObjectList(CheckedObjects):
     """gerbonara drops object attributes on regions; stamp the ones in force when each region closes."""
 
     def __init__(self, parser: "_CopperParser"):
-        super().__init__()
+        super().__init__("graphic objects")
         self._parser = parser
 
     def append(self, obj):
-        if isinstance(obj, go.Region):
+        if self._parser.eof_found:
+            raise ValueError("graphics after the M02 end marker (two files joined into one?)")
+        if obj.unit is None:
+            raise ValueError("graphics before the unit is set (%MOMM*% or %MOIN*% in the header)")
+        if type(obj) is go.Region:
             obj.attrs = {**self._parser.aperture_attrs, **self._parser.graphics_state.object_attrs}
+        elif obj.aperture is None:
+            raise ValueError("draw or flash before any aperture is selected")
         super().append(obj)
 
 
 class _CopperParser(GerberParser):
+    """gerbonara's parser with our warning log, and refusals where tolerance would give a wrong board."""
+
     def __init__(self, target, log: FileWarnings):
         super().__init__(target)
         self._log = log
@@ -71,22 +122,55 @@ class _CopperParser(GerberParser):
     def warn(self, msg, kls=SyntaxWarning):
         self._log.add(msg, self.lineno or None)
 
+    def _refuse_unit_change(self, unit) -> None:
+        if self.file_settings.unit is not None and self.file_settings.unit != unit:
+            raise ValueError(f"unit changed from {self.file_settings.unit.name} to {unit.name} within the file "
+                             "(the unit may be set once, in the header)")
+
+    def _parse_unit_mode(self, match):
+        self._refuse_unit_change(MM if match["unit"] == "MM" else Inch)
+        super()._parse_unit_mode(match)
+
+    def _parse_old_unit(self, match):
+        self._refuse_unit_change(Inch if match["mode"] == "G70" else MM)
+        super()._parse_old_unit(match)
+
+    def _parse_aperture_definition(self, match):
+        if self.file_settings.unit is None:
+            raise ValueError("aperture defined before the unit is set (%MOMM*% or %MOIN*% in the header)")
+        super()._parse_aperture_definition(match)
+        if (problem := aperture_problem(self.aperture_map[int(match["number"])])) is not None:
+            raise ValueError(problem)
+
+    def _parse_image_polarity(self, match):
+        if match["polarity"] == "NEG":
+            raise ValueError("negative image polarity (%IPNEG*%, deprecated) is not supported: the copper would "
+                             "come out inverted")
+        super()._parse_image_polarity(match)
+
+    def _parse_eof(self, match):
+        if self.current_region is not None:
+            raise ValueError("file ends inside a region (G36 without its G37)")
+        super()._parse_eof(match)
+
+    def _parse_step_repeat(self, match):
+        if match["coords"]:
+            check_count(int(match["X"]) * int(match["Y"]), OBJECTS, "step-and-repeat copies")
+        super()._parse_step_repeat(match)
+
 
 def parse_gerber(path: Path, display_name: str | None = None) -> tuple[GerberFile, FileWarnings]:
     """Parse with gerbonara; warnings counted in a log, failures raised as InputError with file and line."""
     name = display_name or str(path)
     log = FileWarnings(name)
-    try:
-        data = path.read_bytes().decode("utf-8", errors="replace")
-    except OSError as exc:
-        raise InputError(f"cannot read Gerber file: {exc.strerror or exc}", path=name) from exc
+    data = read_input(path, name, "Gerber file").decode("utf-8", errors="replace")
     gerber = GerberFile()
     parser = _CopperParser(gerber, log)
     try:
         with log.capturing():
             parser.parse(data, filename=Path(name).name)
     except PARSER_ERRORS as exc:
-        line, message = _split_location(str(exc), parser.lineno)
+        line, message = _split_location(exc, parser.lineno)
         raise InputError(f"unreadable Gerber: {message}", path=name, line=line) from exc
     except RecursionError as exc:
         raise InputError("unreadable Gerber: nesting too deep", path=name) from exc
@@ -98,11 +182,13 @@ def parse_gerber(path: Path, display_name: str | None = None) -> tuple[GerberFil
     return gerber, log
 
 
-def _split_location(text: str, fallback_line: int | None) -> tuple[int | None, str]:
+def _split_location(exc: Exception, fallback_line: int | None) -> tuple[int | None, str]:
+    """(line, message) from a gerbonara error; the message names the error type when gerbonara gives no text."""
+    text = str(exc)
     match = _GERBONARA_WHERE.match(text)
-    if match:
-        return int(match.group(1)), " ".join(match.group(2).split())
-    return (fallback_line or None), " ".join(text.split())
+    line, message = (int(match.group(1)), match.group(2)) if match else (fallback_line or None, text)
+    message = " ".join(message.split())
+    return line, message or type(exc.__cause__ or exc).__name__
 
 
 def aperture_function(attrs) -> str | None:
@@ -130,7 +216,7 @@ def net_of(obj) -> str | None:
     value = attrs.get(".N")
     if not value or not value[0]:
         return None
-    return value[0]
+    return printable(value[0])
 
 
 class _Outlines:
@@ -160,7 +246,12 @@ def _translated(template: shapely.Geometry, x: np.ndarray, y: np.ndarray) -> np.
 def read_copper(path: Path, display_name: str | None = None) -> CopperArtwork:
     """Read one copper file into segments and shapes with net names (X2) where present."""
     gerber, log = parse_gerber(path, display_name)
-    return artwork_from_gerber(path, gerber, log)
+    try:
+        return artwork_from_gerber(path, gerber, log)
+    except InputError as exc:
+        if exc.path is not None:
+            raise
+        raise InputError(exc.message, path=log.name, line=exc.line) from exc
 
 
 def artwork_from_gerber(path: Path, gerber: GerberFile, log: FileWarnings) -> CopperArtwork:
@@ -183,11 +274,17 @@ def artwork_from_gerber(path: Path, gerber: GerberFile, log: FileWarnings) -> Co
     for g, net, role, order, dark in seg.pop("as_shapes"):
         builder.add(g, net, role, order, dark)
     _flashes_to_shapes([objects[i] for i in flashes], np.asarray(flashes, dtype=np.int64), scale, outlines, builder, log)
+    points, most = len(seg["x0"]), limit(SEGMENTS)
     for i in regions:
         obj = objects[i]
-        poly = arc_poly_polygon(np.asarray(obj.outline, dtype=np.float64) * scale,
-                                [None if not a or a[0] is None else (a[0], (a[1][0] * scale, a[1][1] * scale))
-                                 for a in obj.arc_centers])
+        outline = np.asarray(obj.outline, dtype=np.float64) * scale
+        if len(outline) > 2 and np.hypot(*(outline[-1] - outline[0])) > ZERO_LENGTH_MM:
+            log.add("region contour not closed (its last point is not its first); closed with a straight edge")
+        poly = arc_poly_polygon(outline, [None if not a or a[0] is None else (a[0], (a[1][0] * scale, a[1][1] * scale))
+                                          for a in obj.arc_centers])
+        points += shapely.get_num_coordinates(poly)
+        if points > most:
+            check_count(points, SEGMENTS, "trace pieces and region outline points", log.name)
         if poly.is_empty:
             log.add("region with no area ignored", None)
             continue

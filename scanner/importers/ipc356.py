@@ -14,7 +14,8 @@ from pathlib import Path
 
 import numpy as np
 
-from scanner.errors import InputError
+from scanner.errors import InputError, printable
+from scanner.limits import OBJECTS, check_count, coordinate_problem, read_input
 from scanner.units import MM_PER_INCH
 
 #: mm per coordinate count for each ``P  UNITS`` value (inch files count 0.0001 in, metric 0.001 mm)
@@ -63,11 +64,7 @@ def _number(text: str, what: str, path: str, line: int) -> int:
 def read_ipc356(path: Path, display_name: str | None = None) -> NetlistRecords:
     """Parse a netlist; bad units, unknown layouts or malformed numbers raise InputError with the line."""
     name = display_name or str(path)
-    try:
-        text = path.read_bytes().decode("latin-1")
-    except OSError as exc:
-        raise InputError(f"cannot read netlist: {exc.strerror or exc}", path=name) from exc
-    lines = text.splitlines()
+    lines = read_input(path, name, "netlist").decode("latin-1").splitlines()
     logical: list[tuple[int, str]] = []
     for number, raw in enumerate(lines, start=1):
         if raw[:1] == "0" and logical and logical[-1][1][:3] == "378":
@@ -105,16 +102,20 @@ def read_ipc356(path: Path, display_name: str | None = None) -> NetlistRecords:
     rows = [r for r in rows if r is not None]
     if not rows:
         raise InputError("IPC-D-356 netlist holds no 317, 327 or 378 records", path=name)
+    check_count(len(rows), OBJECTS, "netlist points", name)
     net, x, y, access, hole, record, where = zip(*rows)
-    return NetlistRecords(name, np.array(net, dtype=object), np.array(x), np.array(y),
-                          np.array(access, dtype=np.int32), np.array(hole), np.array(record, dtype=np.int32),
-                          np.array(where, dtype=np.int32))
+    x, y, hole = np.array(x), np.array(y), np.array(hole)
+    largest = np.maximum.reduce([np.abs(x), np.abs(y), hole])
+    if (problem := coordinate_problem(float(largest.max()))) is not None:
+        raise InputError(problem, path=name, line=int(where[int(np.argmax(largest))]))
+    return NetlistRecords(name, np.array(net, dtype=object), x, y, np.array(access, dtype=np.int32), hole,
+                          np.array(record, dtype=np.int32), np.array(where, dtype=np.int32))
 
 
 def _net(raw: str, aliases: dict) -> str | None:
     if not raw or raw == NOT_CONNECTED:
         return None
-    return aliases.get(raw, raw)
+    return printable(aliases.get(raw, raw))
 
 
 def _test_point(line: str, code: str, step: float, aliases, path, number):
@@ -148,9 +149,9 @@ def _conductor(line: str, step: float, aliases, path, number):
             raise InputError(f"IPC-D-356 conductor coordinate {token!r} not understood", path=path, line=number)
         xs, ys, y_only = match.groups()
         if xs is not None:
-            x = int(xs) * step
+            x = float(xs) * step  # float: an absurdly long number becomes inf and is refused later, not an overflow
         if ys is not None or y_only is not None:
-            y = int(ys if ys is not None else y_only) * step
+            y = float(ys if ys is not None else y_only) * step
         if x is None or y is None:
             raise InputError("IPC-D-356 conductor chain starts without both coordinates", path=path, line=number)
         out.append((net, x, y, layer, 0.0, 378, number))

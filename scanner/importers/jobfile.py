@@ -6,7 +6,14 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from scanner.board import Stackup, StackupLayer
-from scanner.errors import InputError
+from scanner.errors import InputError, printable
+from scanner.limits import read_input
+
+
+#: stackup layer thickness must lie in (0, MAX_THICKNESS_MM) mm, as in the rules file
+MAX_THICKNESS_MM = 10.0
+#: relative permittivity must lie in [1, MAX_EPSILON_R]
+MAX_EPSILON_R = 100.0
 
 
 @dataclass
@@ -15,60 +22,89 @@ class JobFile:
     stackup: Stackup | None
     #: file name -> ``FileFunction`` split on commas, e.g. ("Copper", "L2", "Inr", "Plane")
     file_functions: dict[str, tuple[str, ...]] = field(default_factory=dict)
+    #: what was left out of the stackup, and why
+    warnings: list[str] = field(default_factory=list)
 
 
-def _thickness(item: dict, path: str) -> float:
-    value = item.get("Thickness", 0.0)
+def _number(item: dict, key: str) -> float | None:
+    """A JSON number (or numeric string) as float; None when absent; NaN when not a number."""
+    value = item.get(key)
+    if value is None:
+        return None
+    if isinstance(value, bool) or not isinstance(value, (int, float, str)):
+        return float("nan")
     try:
-        value = float(value)
-    except (TypeError, ValueError):
-        raise InputError(f"job file stackup layer {item.get('Name', '?')!r} has thickness {value!r}", path=path) from None
-    if value < 0:
-        raise InputError(f"job file stackup layer {item.get('Name', '?')!r} has negative thickness", path=path)
+        return float(value)
+    except ValueError:
+        return float("nan")
+
+
+def _thickness(item: dict, where: str, path: str) -> float:
+    value = _number(item, "Thickness")
+    if value is None:
+        raise InputError(f"job file {where} has no Thickness", path=path)
+    if not 0 < value < MAX_THICKNESS_MM:
+        raise InputError(f"job file {where} has Thickness {item['Thickness']!r}; expected a number of mm "
+                         f"above 0 and below {MAX_THICKNESS_MM:g}", path=path)
+    return value
+
+
+def _permittivity(item: dict, where: str, path: str) -> float | None:
+    value = _number(item, "DielectricConstant")
+    if value is not None and not 1.0 <= value <= MAX_EPSILON_R:
+        raise InputError(f"job file {where} has DielectricConstant {item['DielectricConstant']!r}; expected a "
+                         f"relative permittivity from 1 to {MAX_EPSILON_R:g}", path=path)
+    return value
+
+
+def _list(data: dict, key: str, path: str) -> list:
+    value = data.get(key)
+    if value is None:
+        return []
+    if not isinstance(value, list):
+        raise InputError(f"job file {key} is not a list", path=path)
     return value
 
 
 def read_job_file(path: Path, display_name: str | None = None) -> JobFile:
-    """Read ``MaterialStackup`` (mm, top to bottom) and ``FilesAttributes``."""
+    """Read ``MaterialStackup`` (mm, top to bottom) and ``FilesAttributes``; every value used is checked."""
     name = display_name or str(path)
     try:
-        data = json.loads(path.read_bytes().decode("utf-8-sig"))
-    except OSError as exc:
-        raise InputError(f"cannot read job file: {exc.strerror or exc}", path=name) from exc
-    except (UnicodeDecodeError, json.JSONDecodeError) as exc:
+        data = json.loads(read_input(path, name, "job file").decode("utf-8-sig"))
+    except (UnicodeDecodeError, json.JSONDecodeError, RecursionError) as exc:
         raise InputError(f"job file is not valid JSON: {getattr(exc, 'msg', exc)}", path=name,
                          line=getattr(exc, "lineno", None)) from exc
     if not isinstance(data, dict):
         raise InputError("job file is not a JSON object", path=name)
 
     functions = {}
-    for entry in data.get("FilesAttributes", []) or []:
-        if isinstance(entry, dict) and entry.get("Path") and entry.get("FileFunction"):
-            functions[Path(str(entry["Path"])).name] = tuple(p.strip() for p in str(entry["FileFunction"]).split(","))
+    for entry in _list(data, "FilesAttributes", name):
+        file, function = (entry.get("Path"), entry.get("FileFunction")) if isinstance(entry, dict) else (None, None)
+        if isinstance(file, str) and isinstance(function, str):
+            functions[Path(file).name] = tuple(p.strip() for p in function.split(","))
 
+    job = JobFile(name, None, functions)
     layers = []
     copper_index = 0
-    for item in data.get("MaterialStackup", []) or []:
+    for number, item in enumerate(_list(data, "MaterialStackup", name), start=1):
         if not isinstance(item, dict):
-            continue
+            raise InputError(f"job file MaterialStackup item {number} is not a JSON object", path=name)
         kind = str(item.get("Type", "")).lower()
-        label = str(item.get("Name", kind))
-        eps = item.get("DielectricConstant")
-        eps = float(eps) if isinstance(eps, (int, float)) or (isinstance(eps, str) and _is_float(eps)) else None
+        label = printable(str(item.get("Name", kind)))
+        where = f"MaterialStackup item {number} ({label!r})"
         if kind == "copper":
-            layers.append(StackupLayer("copper", label, _thickness(item, name), None, copper_index))
+            layers.append(StackupLayer("copper", label, _thickness(item, where, name), None, copper_index))
             copper_index += 1
         elif kind == "dielectric":
-            layers.append(StackupLayer("dielectric", label, _thickness(item, name), eps))
+            thickness, eps = _thickness(item, where, name), _permittivity(item, where, name)
+            if eps is None:
+                raise InputError(f"job file {where} has no DielectricConstant", path=name)
+            layers.append(StackupLayer("dielectric", label, thickness, eps))
         elif kind == "soldermask":
-            layers.append(StackupLayer("soldermask", label, _thickness(item, name), eps))
-    stackup = Stackup(tuple(layers), "job-file") if copper_index else None
-    return JobFile(name, stackup, functions)
-
-
-def _is_float(text: str) -> bool:
-    try:
-        float(text)
-    except ValueError:
-        return False
-    return True
+            thickness, eps = _thickness(item, where, name), _permittivity(item, where, name)
+            if eps is None:
+                job.warnings.append(f"{name}: {where} has no DielectricConstant; solder mask left out of the stackup")
+                continue
+            layers.append(StackupLayer("soldermask", label, thickness, eps))
+    job.stackup = Stackup(tuple(layers), "job-file") if copper_index else None
+    return job

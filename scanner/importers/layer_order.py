@@ -21,6 +21,8 @@ _NUMBERED = re.compile(r"(?:^|[^a-z])(?:l|layer|lyr|inner|in|int|art|copper|cu|s
                        r"[-_ .]?0*(\d{1,2})(?:[^0-9]|$)")
 _EXT_SIDE = {".gtl": "top", ".cmp": "top", ".gbl": "bottom", ".sol": "bottom"}
 _EXT_INNER = re.compile(r"^\.g(p?)(\d{1,2})$")
+#: highest copper layer number accepted from X2 or job-file attributes
+MAX_COPPER_LAYERS = 128
 
 
 @dataclass(frozen=True)
@@ -51,8 +53,9 @@ def _with_hint(src: SourceFile, side: str, job_functions: dict) -> CopperFile:
 
 
 def _layer_number(function: tuple[str, ...], name: str) -> int:
-    if len(function) < 2 or not re.fullmatch(r"L\d+", function[1]):
-        raise InputError(f"copper .FileFunction {','.join(function)!r} has no L<n> layer number", path=name)
+    if len(function) < 2 or not re.fullmatch(r"L[1-9]\d*", function[1]):
+        raise InputError(f"copper .FileFunction {','.join(function)!r} has no L<n> layer number (n from 1)",
+                         path=name)
     return int(function[1][1:])
 
 
@@ -97,6 +100,7 @@ def copper_files(gerbers: list[SourceFile], board_layers: list[str] | None, boar
     if x2:
         keyed = sorted(((_layer_number(s.file_function, s.name), s) for s in x2), key=lambda t: t[0])
         _no_duplicates([(k, s.name) for k, s in keyed], "X2 .FileFunction", where)
+        _no_gaps([k for k, _ in keyed], "X2 .FileFunction", where)
         return [_with_hint(s, _side(i, len(keyed)), job_functions) for i, (_, s) in enumerate(keyed)], "gerber-x2"
 
     job = [(job_functions[s.path.name], s) for s in gerbers
@@ -104,6 +108,7 @@ def copper_files(gerbers: list[SourceFile], board_layers: list[str] | None, boar
     if job:
         keyed = sorted(((_layer_number(f, s.name), f, s) for f, s in job), key=lambda t: t[0])
         _no_duplicates([(k, s.name) for k, _, s in keyed], "job file FilesAttributes", where)
+        _no_gaps([k for k, _, _ in keyed], "job file FilesAttributes", where)
         return [_with_hint(s, _side(i, len(keyed)), job_functions) for i, (_, f, s) in enumerate(keyed)], "job-file"
 
     guessed = [(key, s) for s in gerbers if (key := guess_from_name(s.path.name)) is not None]
@@ -119,3 +124,14 @@ def _no_duplicates(keyed: list[tuple], evidence: str, where: str) -> None:
             raise InputError(f"{seen[key]} and {name} claim the same copper layer by {evidence}; "
                              "list the copper order in nearfar-board.toml", path=where)
         seen[key] = name
+
+
+def _no_gaps(numbers: list[int], evidence: str, where: str) -> None:
+    """Copper layers numbered L1..Ln with none missing: a missing layer would change every net through it."""
+    if max(numbers) > MAX_COPPER_LAYERS:
+        raise InputError(f"copper layer number L{max(numbers)} by {evidence} is beyond L{MAX_COPPER_LAYERS}",
+                         path=where)
+    missing = sorted(set(range(1, max(numbers) + 1)) - set(numbers))
+    if missing:
+        raise InputError(f"copper layer(s) {', '.join(f'L{n}' for n in missing)} missing: the copper files are "
+                         f"numbered {', '.join(f'L{n}' for n in numbers)} by {evidence}", path=where)

@@ -13,6 +13,7 @@ from scanner.importers.arcs import flatten_arcs
 from scanner.importers.diagnostics import FileWarnings
 from scanner.importers.gerber_copper import parse_gerber
 from scanner.importers.sources import SourceFile
+from scanner.limits import SEGMENTS, check_count, limit
 
 _PROFILE_NAME = re.compile(r"edge[._-]?cuts|outline|profile|board[._-]?edge|\.gko$|\.gm1$", re.I)
 
@@ -34,23 +35,13 @@ def read_outline(src: SourceFile) -> tuple[shapely.Geometry | None, FileWarnings
 
     The outline is optional, so an unreadable profile is a warning, not an error.
     """
+    log = FileWarnings(src.name)
     try:
         gerber, log = parse_gerber(src.path, src.name)
+        lines = _profile_lines(gerber)
     except InputError as exc:
-        log = FileWarnings(src.name)
         log.add(f"profile not used: {exc.message}", exc.line)
         return None, log
-    scale = gerber.unit.convert_to(MM, 1.0)
-    lines = []
-    for obj in gerber.objects:
-        if isinstance(obj, go.Line):
-            lines.append(np.array([(obj.x1, obj.y1), (obj.x2, obj.y2)]) * scale)
-        elif isinstance(obj, go.Arc):
-            _, px, py = flatten_arcs([obj.x1], [obj.y1], [obj.x2], [obj.y2], [obj.x1 + obj.cx], [obj.y1 + obj.cy],
-                                     [obj.clockwise])
-            lines.append(np.column_stack([px, py]) * scale)
-        elif isinstance(obj, go.Region):
-            lines.append(np.vstack([obj.outline, obj.outline[:1]]) * scale)
     if not lines:
         log.add("profile file draws no outline")
         return None, log
@@ -63,3 +54,24 @@ def read_outline(src: SourceFile) -> tuple[shapely.Geometry | None, FileWarnings
     outer = polygons[int(np.argmax(areas))]
     inner = [p for p in polygons if p is not outer and shapely.contains(outer, p)]
     return (shapely.difference(outer, shapely.union_all(inner)) if inner else outer), log
+
+
+def _profile_lines(gerber) -> list[np.ndarray]:
+    """The profile's draws and region edges as point rows (mm); more points than the segment limit is an error."""
+    scale = gerber.unit.convert_to(MM, 1.0)
+    lines, points, most = [], 0, limit(SEGMENTS)
+    for obj in gerber.objects:
+        if isinstance(obj, go.Line):
+            lines.append(np.array([(obj.x1, obj.y1), (obj.x2, obj.y2)]) * scale)
+        elif isinstance(obj, go.Arc):
+            _, px, py = flatten_arcs([obj.x1], [obj.y1], [obj.x2], [obj.y2], [obj.x1 + obj.cx], [obj.y1 + obj.cy],
+                                     [obj.clockwise])
+            lines.append(np.column_stack([px, py]) * scale)
+        elif isinstance(obj, go.Region):
+            lines.append(np.vstack([obj.outline, obj.outline[:1]]) * scale)
+        else:
+            continue
+        points += len(lines[-1])
+        if points > most:
+            check_count(points, SEGMENTS, "outline points")
+    return lines

@@ -13,10 +13,10 @@ PLANE_FILL_RATIO = 0.4
 PLANE_TRACE_SHARE = 0.25
 
 
-def board_area_mm2(layers: list[CopperLayer], outline=None) -> float:
-    """Area of the outline when known, else of the box around all copper."""
+def copper_box(layers: list[CopperLayer], outline=None) -> tuple[float, float, float, float] | None:
+    """(x0, y0, x1, y1) in mm of the outline when known, else of all copper; None when there is neither."""
     if outline is not None and not outline.is_empty:
-        return float(outline.area)
+        return tuple(float(v) for v in outline.bounds)
     boxes = []
     for layer in layers:
         s = layer.segments
@@ -28,9 +28,17 @@ def board_area_mm2(layers: list[CopperLayer], outline=None) -> float:
             if np.isfinite(b).all():
                 boxes.append(tuple(b))
     if not boxes:
-        return 0.0
+        return None
     b = np.array(boxes)
-    return float((b[:, 2].max() - b[:, 0].min()) * (b[:, 3].max() - b[:, 1].min()))
+    return float(b[:, 0].min()), float(b[:, 1].min()), float(b[:, 2].max()), float(b[:, 3].max())
+
+
+def board_area_mm2(layers: list[CopperLayer], outline=None) -> float:
+    """Area of the outline when known, else of the box around all copper."""
+    if outline is not None and not outline.is_empty:
+        return float(outline.area)
+    box = copper_box(layers)
+    return 0.0 if box is None else (box[2] - box[0]) * (box[3] - box[1])
 
 
 def fill_ratio(layer: CopperLayer, area_mm2: float) -> float:

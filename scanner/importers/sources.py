@@ -5,6 +5,7 @@ import re
 from dataclasses import dataclass
 from pathlib import Path
 
+from scanner.errors import InputError, printable
 from scanner.importers.boardfile import BOARD_FILE_NAME
 
 #: bytes read from each file to recognise its format
@@ -15,6 +16,13 @@ _GERBER = re.compile(r"%FS[LTD]?[AI]|%MO(?:MM|IN)|^G04 ", re.M)
 _EXCELLON = re.compile(r"^M48\s*$|^;\s*DRILL|^T\d+C[\d.]+", re.M)
 _IPC356 = re.compile(r"^P\s+(?:UNITS|JOB|CODE)|^3[123]7\S", re.M)
 _JOB_SUFFIXES = {".gbrjob"}
+
+#: name endings that say what a file is meant to be, for files whose content is not recognised
+_NAMED_KINDS = (
+    ("gerber", re.compile(r"\.(?:gbr|ger|pho|art|gdo|cmp|sol|g[tb][lsopm]|gko|gml|gm\d{1,2}|gp?\d{1,2})$", re.I)),
+    ("excellon", re.compile(r"\.(?:drl|xln|exc|drd|ncd)$", re.I)),
+    ("ipc356", re.compile(r"\.(?:ipc|d356|356)$", re.I)),
+)
 
 
 @dataclass(frozen=True)
@@ -54,12 +62,35 @@ def sniff(path: Path, name: str, rel: str) -> SourceFile:
     return SourceFile(path, name, rel, "other")
 
 
+def named_kind(file_name: str) -> str | None:
+    """The format a file's name ending promises ("gerber", "excellon", "ipc356"), whatever its content."""
+    return next((kind for kind, pattern in _NAMED_KINDS if pattern.search(file_name)), None)
+
+
+def folder_name(files: list[SourceFile]) -> str:
+    """How messages name the folder or archive ``files`` came from (never a temporary extraction folder)."""
+    first = files[0]
+    prefix = first.name[: len(first.name) - len(printable(first.rel))]
+    return prefix[:-1] if prefix.endswith(("/", "!")) else prefix
+
+
 def list_sources(root: Path, prefix: str = "") -> list[SourceFile]:
-    """All regular files below ``root`` (hidden ones skipped), sorted; ``prefix`` goes in front of display names."""
+    """All regular files below ``root`` (hidden ones skipped), sorted; ``prefix`` goes in front of display names.
+
+    Symbolic links, devices and pipes are refused: a link may point anywhere, and skipping it
+    would quietly drop a file the board needs.
+    """
     out = []
     for path in sorted(root.rglob("*")):
         rel = path.relative_to(root)
-        if any(part.startswith(".") for part in rel.parts) or not path.is_file() or path.is_symlink():
+        if any(part.startswith(".") for part in rel.parts):
             continue
-        out.append(sniff(path, prefix + rel.as_posix(), rel.as_posix()))
+        name = printable(prefix + rel.as_posix())
+        if path.is_symlink():
+            raise InputError("symbolic link; nearfar reads only regular files in a board folder (copy the file in)",
+                             path=name)
+        if path.is_file():
+            out.append(sniff(path, name, rel.as_posix()))
+        elif not path.is_dir():
+            raise InputError("not a regular file (a device or pipe)", path=name)
     return out

@@ -9,6 +9,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from scanner.errors import InputError
+from scanner.limits import read_input
 from scanner.units import MM_PER_INCH, MM_PER_MIL
 
 #: ODB++ units words and the millimetres per coordinate unit and per symbol-size unit
@@ -43,13 +44,9 @@ def read_lines(src: JobFile, what: str) -> list[str]:
     """The file's lines (ASCII expected; stray bytes replaced), or InputError naming it."""
     if src.path.with_name(src.path.name + ".Z").is_file() and not src.path.is_file():
         raise InputError(f"{what} is stored compressed (.Z); uncompress it first", path=src.name + ".Z")
-    try:
-        data = src.path.read_bytes()
-    except FileNotFoundError:
-        raise InputError(f"{what} not found", path=src.name) from None
-    except OSError as exc:
-        raise InputError(f"cannot read {what}: {exc.strerror or exc}", path=src.name) from exc
-    return data.decode("utf-8", errors="replace").splitlines()
+    if not src.path.is_file():
+        raise InputError(f"{what} not found", path=src.name)
+    return read_input(src.path, src.name, what).decode("utf-8", errors="replace").splitlines()
 
 
 def units_word(value: str, src: JobFile, line: int | None) -> str:
