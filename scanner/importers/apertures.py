@@ -5,13 +5,17 @@ import dataclasses
 
 import numpy as np
 import shapely
+import shapely.affinity
 from gerbonara import graphic_primitives as gp
 from gerbonara.aperture_macros import primitive as macro_primitive
 from gerbonara.apertures import ApertureMacroInstance, PolygonAperture
 from gerbonara.utils import MM
 
+from scanner.importers import thermal
 from scanner.importers.arcs import flatten_arcs, ring_points
 from scanner.limits import coordinate_problem
+
+thermal.register()
 
 #: circle resolution for pads and drawn ends (segments per quarter turn)
 QUAD_SEGS = 8
@@ -57,6 +61,11 @@ def primitive_geometry(prim) -> shapely.Geometry:
         return shapely.LineString(np.column_stack([px, py])).buffer(prim.width / 2, quad_segs=QUAD_SEGS)
     if isinstance(prim, gp.ArcPoly):
         return arc_poly_polygon(prim.outline, prim.arc_centers or [])
+    if isinstance(prim, gp.Rectangle):
+        # gerbonara 1.5's Rectangle.to_arc_poly gives the axis-aligned bounding box at angles other than
+        # multiples of 90°; rotation is counter-clockwise about the centre (as rotate_point(-angle) uses it)
+        box = shapely.box(prim.x - prim.w / 2, prim.y - prim.h / 2, prim.x + prim.w / 2, prim.y + prim.h / 2)
+        return shapely.affinity.rotate(box, prim.rotation, origin=(prim.x, prim.y), use_radians=True)
     poly = prim.to_arc_poly()
     return arc_poly_polygon(poly.outline, poly.arc_centers or [])
 
@@ -80,7 +89,7 @@ def aperture_problem(aperture) -> str | None:
             return f"aperture D{aperture.original_number} asks for {count:g} {what}; allowed {low} to {high}"
     try:
         primitives = aperture.flash(0.0, 0.0, MM, True)
-    except Exception as exc:  # noqa: BLE001 - gerbonara 1.5 fails on some macro primitives (thermal, moire)
+    except Exception as exc:  # noqa: BLE001 - gerbonara 1.5 fails on some macro primitives (moire)
         return f"aperture D{aperture.original_number} cannot be drawn ({type(exc).__name__}: {exc})"
     largest = max((_largest(getattr(p, f.name)) for p in primitives for f in dataclasses.fields(p)), default=0.0)
     return coordinate_problem(largest)

@@ -326,9 +326,9 @@ def macro_polygon_with_a_million_vertices(tmp):
 
 
 @case
-def thermal_macro_primitive(tmp):
-    """gerbonara 1.5 cannot draw thermal (code 7) macro primitives: refused naming the aperture, not a crash."""
-    thermal = ["%AMTHERM*7,0,0,1.0,0.6,0.2,45*%", "%ADD20THERM*%"]
+def thermal_with_inner_beyond_outer(tmp):
+    """A thermal (code 7) whose inner diameter exceeds its outer one is no shape: refused naming the aperture."""
+    thermal = ["%AMTHERM*7,0,0,0.6,1.0,0.2,45*%", "%ADD20THERM*%"]
     return top_case(tmp, "G01*", thermal, "D20 cannot be drawn", line_of=1)
 
 
