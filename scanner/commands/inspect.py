@@ -96,7 +96,7 @@ def render_inspect(data: dict) -> str:
 @click.option("--board-file", type=click.Path(path_type=Path), default=None,
               help="Board description (TOML): copper files in stack order, planes, netlist, drills.")
 def command(board, as_json, board_file):
-    """Show what nearfar reads from BOARD (a folder or .zip): copper layers in stack order, planes,
+    """Show what nearfar reads from BOARD (a folder, .zip, or ODB++ job .tgz): copper layers in stack order, planes,
     nets, stackup, how well the copper matched the netlist, and parser warnings."""
     data = inspect_data(load_board(board, board_file=board_file))
     click.echo(json.dumps(data, indent=2) if as_json else render_inspect(data))

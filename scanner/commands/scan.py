@@ -29,10 +29,12 @@ from scanner.rules import load_rules
 @click.option("--json", "as_json", is_flag=True, help="Print report.json to standard output instead of the table.")
 @click.option("--no-images", is_flag=True, help="Skip overlay images, waveform plots and the report page.")
 def command(board, rules_path, board_file, out_dir, top, as_json, no_images):
-    """Find parallel runs between nets on BOARD (a folder or .zip of fabrication files), predict NEXT and
-    FEXT on every victim, check the net-class budgets and rank the hotspots.
+    """Find parallel runs between nets on BOARD (a folder or .zip of Gerber, drill and netlist files, or an
+    ODB++ job folder or .tgz), predict NEXT and FEXT on every victim, check the net-class budgets and rank
+    the hotspots.
 
-    Exit status: 0 all victims within budget, 1 some victim over budget, 2 bad input.
+    Exit status: 0 all victims within budget, 1 some victim over budget or a geometric limit broken,
+    2 bad input.
     """
     show_progress = not as_json and sys.stderr.isatty()
     started = time.perf_counter()
