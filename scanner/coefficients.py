@@ -15,8 +15,9 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from scanner.layerstack import LayerEnvironment
+from scanner.layerstack import BroadsideEnvironment, LayerEnvironment
 from scanner.physics import CouplingTable
+from scanner.physics.broadside import BroadsideTable
 
 WIDTH_RUNG = 1.4
 #: spacing grid of each table: from TABLE_MIN_SPACING_MM to the larger of the search distance and
@@ -130,3 +131,47 @@ def section_arguments(env: LayerEnvironment) -> dict:
 def _layer_table(env: LayerEnvironment, width_mm: float, max_spacing_mm: float) -> CouplingTable:
     return CouplingTable.for_layer(width_mm=width_mm, **section_arguments(env),
                                    spacings_mm=np.geomspace(TABLE_MIN_SPACING_MM, max_spacing_mm, TABLE_POINTS))
+
+
+class BroadsideLookup:
+    """Coefficients of broadside pieces (traces on two neighbouring signal layers) by lateral centre offset.
+
+    One table per layer pair and width rung (the nearest rung of the upper layer's ladder; broadside pairs
+    are few, so no interpolation between rungs).
+    """
+
+    def __init__(self, pairs: dict[tuple[int, int], BroadsideEnvironment], search_distance_mm: float,
+                 width_anchor_mm: dict[int, float]):
+        self.pairs = pairs
+        self.search_mm = search_distance_mm
+        self.anchor_mm = width_anchor_mm
+        self._tables: dict[tuple[int, int, int], BroadsideTable] = {}
+
+    @property
+    def solve_count(self) -> int:
+        return sum(t.solve_count for t in self._tables.values())
+
+    def coefficients(self, layer: np.ndarray, layer_b: np.ndarray, width_mm: np.ndarray, offset_mm: np.ndarray):
+        n = len(layer)
+        kb, kf, velocity = np.zeros(n), np.zeros(n), np.zeros(n)
+        upper, lower = np.minimum(layer, layer_b), np.maximum(layer, layer_b)
+        anchor = np.array([self.anchor_mm.get(int(u), 0.1) for u in upper]) if n else np.zeros(0)
+        rung = np.rint(np.log(width_mm / anchor) / np.log(WIDTH_RUNG)).astype(np.int64) if n else anchor
+        keys = sorted(set(zip(upper.tolist(), lower.tolist(), rung.tolist())))
+        for u, lo, r in keys:
+            rows = np.flatnonzero((upper == u) & (lower == lo) & (rung == r))
+            table = self.table(u, lo, r)
+            kb[rows] = table.kb(offset_mm[rows])
+            kf[rows] = table.kf(offset_mm[rows])
+            velocity[rows] = table.velocity_m_per_s
+        return kb, kf, velocity
+
+    def table(self, upper: int, lower: int, rung: int) -> BroadsideTable:
+        key = (upper, lower, rung)
+        if key not in self._tables:
+            env = self.pairs[(upper, lower)]
+            width = self.anchor_mm.get(upper, 0.1) * WIDTH_RUNG ** rung
+            reach = self.search_mm * 1.05 + 1.5 * width
+            self._tables[key] = BroadsideTable.for_pair(env.dielectrics, env.base_mm, env.thickness_mm, width,
+                                                        np.linspace(0.0, reach, TABLE_POINTS))
+        return self._tables[key]

@@ -34,7 +34,7 @@ Geometry of one piece (segments a and b, ``net_a < net_b``):
 """
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from typing import Mapping
 
 import numpy as np
@@ -54,6 +54,10 @@ class CoupledPieces:
     ``length_mm`` is the mean of the facing lengths on the two segments;
     spacings are edge to edge over the piece; ``x0_mm..y1_mm`` are the piece's ends
     on the centre line between the two traces; ``angle_deg`` is in [0, 90].
+    ``layer_b`` is the layer of ``seg_b``: the same as ``layer`` except for broadside
+    pieces (traces on two neighbouring signal layers), whose spacings are measured
+    in plan view; ``centre_mean_mm`` is the mean distance between the centre lines in
+    plan view (for broadside pieces the lateral offset that sets their coupling).
     """
 
     layer: np.ndarray
@@ -71,9 +75,24 @@ class CoupledPieces:
     x1_mm: np.ndarray
     y1_mm: np.ndarray
     angle_deg: np.ndarray
+    layer_b: np.ndarray | None = None
+    centre_mean_mm: np.ndarray | None = None
+
+    def __post_init__(self):
+        if self.layer_b is None:
+            object.__setattr__(self, "layer_b", np.asarray(self.layer).copy())
+        if self.centre_mean_mm is None:
+            object.__setattr__(self, "centre_mean_mm",
+                               np.asarray(self.spacing_mean_mm) + 0.5 * (np.asarray(self.width_a_mm)
+                                                                          + np.asarray(self.width_b_mm)))
 
     def __len__(self) -> int:
         return len(self.layer)
+
+    @property
+    def broadside(self) -> np.ndarray:
+        """True for pieces between traces on two different layers."""
+        return self.layer_b != self.layer
 
     @classmethod
     def concat(cls, parts: list["CoupledPieces"]) -> "CoupledPieces":
@@ -254,7 +273,8 @@ def _pieces(layer: int, g: _Segs, p: _Pairs, lo: np.ndarray, hi: np.ndarray) -> 
         seg_a=a.astype(np.int64), seg_b=b.astype(np.int64), length_mm=length,
         spacing_min_mm=np.maximum(centre_min - half_sum, 0.0),
         spacing_mean_mm=np.maximum(centre_mean - half_sum, 0.0),
-        width_a_mm=wa, width_b_mm=wb, x0_mm=x0, y0_mm=y0, x1_mm=x1, y1_mm=y1, angle_deg=angle)
+        width_a_mm=wa, width_b_mm=wb, x0_mm=x0, y0_mm=y0, x1_mm=x1, y1_mm=y1, angle_deg=angle,
+        layer_b=np.full(len(a), layer, dtype=np.int32), centre_mean_mm=centre_mean)
 
 
 def _candidate_boxes(seg: TraceSegments, rows: np.ndarray, search_mm: float) -> np.ndarray:
@@ -265,8 +285,9 @@ def _candidate_boxes(seg: TraceSegments, rows: np.ndarray, search_mm: float) -> 
 
 
 def _layer_pairs(seg: TraceSegments, g: _Segs, rows: np.ndarray, search_mm: float, cos_min: float,
-                 partner: np.ndarray | None) -> tuple[_Pairs, np.ndarray, np.ndarray]:
-    """Candidate pairs from the index, filtered to different, non-partner nets facing in parallel within reach."""
+                 partner: np.ndarray | None, side: np.ndarray | None = None) -> tuple[_Pairs, np.ndarray, np.ndarray]:
+    """Candidate pairs from the index, filtered to different, non-partner nets facing in parallel within reach
+    (and, given ``side``, only pairs of segments on different sides)."""
     boxes = _candidate_boxes(seg, rows, search_mm)
     tree = shapely.STRtree(boxes)
     parts, lows, highs = [], [], []
@@ -280,6 +301,8 @@ def _layer_pairs(seg: TraceSegments, g: _Segs, rows: np.ndarray, search_mm: floa
         keep = na != nb
         if partner is not None:
             keep &= partner[na] != nb
+        if side is not None:
+            keep &= side[a] != side[b]
         a, b, na, nb = a[keep], b[keep], na[keep], nb[keep]
         cos_ab = g.ux[a] * g.ux[b] + g.uy[a] * g.uy[b]
         keep = np.abs(cos_ab) >= cos_min
@@ -331,22 +354,68 @@ def find_coupled_pieces(layers: Mapping[int, TraceSegments], search_distance_mm:
     partner = _net_table(net_partner, "net_partner", max_net)
     out = []
     for layer, seg in sorted(layers.items()):
-        g = _Segs(seg)
-        usable = (seg.net != NO_NET) & (g.length > LENGTH_EPS_MM)
-        if active is not None:
-            usable &= active[np.maximum(seg.net, 0)].astype(bool)
-        rows = _strip_order(seg, np.flatnonzero(usable))
-        if len(rows) < 2:
+        pieces = _search(seg, None, search_distance_mm, cos_min, active, partner)
+        if pieces is not None:
+            out.append(_finish(pieces, int(layer), min_overlap_mm))
+    if not out:
+        return _empty_pieces()
+    return CoupledPieces.concat(out)
+
+
+def find_broadside_pieces(layer_pairs: Mapping[tuple[int, int], tuple[TraceSegments, TraceSegments]],
+                          search_distance_mm: float, angle_tolerance_deg: float = 10.0,
+                          net_active: np.ndarray | None = None, net_partner: np.ndarray | None = None,
+                          min_overlap_mm: float = 0.0) -> CoupledPieces:
+    """Coupled pieces between traces of different nets on two neighbouring signal layers (broadside).
+
+    ``layer_pairs`` maps (layer, other layer) to their trace segments. The geometry is the
+    same-layer one taken in plan view: parallel within the angle tolerance, overlapping
+    projections, lateral edge spacing within ``search_distance_mm`` (0 where the traces
+    overlap in plan); only pairs with one segment on each layer count.
+    """
+    cos_min = float(np.cos(np.radians(angle_tolerance_deg)))
+    max_net = max((int(s.net.max()) for pair in layer_pairs.values() for s in pair if len(s)), default=-1)
+    active = _net_table(net_active, "net_active", max_net)
+    partner = _net_table(net_partner, "net_partner", max_net)
+    out = []
+    for (first, second), (seg_1, seg_2) in sorted(layer_pairs.items()):
+        merged = TraceSegments.concat([seg_1, seg_2])
+        side = np.r_[np.zeros(len(seg_1), dtype=np.int8), np.ones(len(seg_2), dtype=np.int8)]
+        pieces = _search(merged, side, search_distance_mm, cos_min, active, partner)
+        if pieces is None:
             continue
-        p, lo, hi = _layer_pairs(seg, g, rows, search_distance_mm, cos_min, partner)
-        p, lo, hi = _deduplicate(p, g.net, lo, hi)
-        pieces = _pieces(int(layer), g, p, lo, hi)
+        on_1_a, on_1_b = side[pieces.seg_a] == 0, side[pieces.seg_b] == 0
+        pieces = replace(pieces, layer=np.where(on_1_a, first, second).astype(np.int32),
+                         layer_b=np.where(on_1_b, first, second).astype(np.int32),
+                         seg_a=np.where(on_1_a, pieces.seg_a, pieces.seg_a - len(seg_1)),
+                         seg_b=np.where(on_1_b, pieces.seg_b, pieces.seg_b - len(seg_1)))
         out.append(pieces.take(pieces.length_mm >= max(min_overlap_mm, LENGTH_EPS_MM)))
     if not out:
         return _empty_pieces()
     return CoupledPieces.concat(out)
 
 
+def _search(seg: TraceSegments, side, search_mm: float, cos_min: float, active, partner) -> CoupledPieces | None:
+    """All pieces among one set of segments (pairs across ``side`` only, when given); None when too few."""
+    g = _Segs(seg)
+    usable = (seg.net != NO_NET) & (g.length > LENGTH_EPS_MM)
+    if active is not None:
+        usable &= active[np.maximum(seg.net, 0)].astype(bool)
+    rows = _strip_order(seg, np.flatnonzero(usable))
+    if len(rows) < 2:
+        return None
+    p, lo, hi = _layer_pairs(seg, g, rows, search_mm, cos_min, partner, side)
+    p, lo, hi = _deduplicate(p, g.net, lo, hi)
+    return _pieces(0, g, p, lo, hi)
+
+
+def _finish(pieces: CoupledPieces, layer: int, min_overlap_mm: float) -> CoupledPieces:
+    pieces = replace(pieces, layer=np.full(len(pieces), layer, dtype=np.int32),
+                     layer_b=np.full(len(pieces), layer, dtype=np.int32))
+    return pieces.take(pieces.length_mm >= max(min_overlap_mm, LENGTH_EPS_MM))
+
+
 def _empty_pieces() -> CoupledPieces:
-    dtypes = {"layer": np.int32, "net_a": np.int32, "net_b": np.int32, "seg_a": np.int64, "seg_b": np.int64}
+    dtypes = {"layer": np.int32, "layer_b": np.int32, "net_a": np.int32, "net_b": np.int32, "seg_a": np.int64,
+              "seg_b": np.int64}
     return CoupledPieces(*(np.zeros(0, dtype=dtypes.get(k, np.float64)) for k in CoupledPieces.__dataclass_fields__))

@@ -93,10 +93,12 @@ def layer_environments(board: Board, stackup: Stackup, plane_layers: set[int]) -
         above = _walk(items, pos, -1, plane_layers)
         thickness = items[pos].thickness_mm
         if below.plane and above.plane:
-            # reference on the nearer side; the trace base faces it
+            # reference on the nearer side; the trace base faces it, and the layer's own copper
+            # thickness (traces embedded in laminate) belongs to the plane-to-plane distance
             near, far = (below, above) if below.height <= above.height else (above, below)
+            slab = (thickness, far.dielectrics[0][1] if far.dielectrics else near.dielectrics[0][1])
             env = LayerEnvironment(layer.index, "stripline", tuple(reversed(near.dielectrics)),
-                                   tuple(far.dielectrics), thickness, None)
+                                   (slab,) + tuple(far.dielectrics), thickness, None)
         elif below.plane or above.plane:
             near, far = (below, above) if below.plane else (above, below)
             mask = far.dielectrics[-1] if far.mask else None
@@ -106,6 +108,60 @@ def layer_environments(board: Board, stackup: Stackup, plane_layers: set[int]) -
             continue
         envs[layer.index] = env
     return envs
+
+
+@dataclass(frozen=True)
+class BroadsideEnvironment:
+    """Two signal layers between the same pair of planes with no plane between them (dual stripline).
+
+    ``dielectrics``: (thickness_mm, epsilon_r) from the lower plane up to the upper one, copper
+    layers counted as laminate; ``base_mm``: height of each layer's trace base above the lower
+    plane, for (``upper``, ``lower``).
+    """
+
+    upper: int
+    lower: int
+    dielectrics: tuple[tuple[float, float], ...]
+    base_mm: tuple[float, float]
+    thickness_mm: tuple[float, float]
+
+
+def broadside_environments(board: Board, stackup: Stackup, envs: dict[int, LayerEnvironment],
+                           plane_layers: set[int]) -> dict[tuple[int, int], BroadsideEnvironment]:
+    """Pairs of stripline signal layers that share both planes: their traces couple through the laminate."""
+    items = list(stackup.layers)
+    copper_pos = [i for i, item in enumerate(items) if item.kind == "copper"]
+    striplines = sorted(i for i, e in envs.items() if e.structure == "stripline")
+    out = {}
+    for a in striplines:
+        for b in striplines:
+            if b <= a or any(a < k < b for k in plane_layers):
+                continue
+            top = max(k for k in plane_layers if k < a)
+            bottom = min(k for k in plane_layers if k > b)
+            stack, base = _plane_to_plane(items, copper_pos[top], copper_pos[bottom])
+            out[(a, b)] = BroadsideEnvironment(a, b, stack, (base[copper_pos[a]], base[copper_pos[b]]),
+                                               (items[copper_pos[a]].thickness_mm, items[copper_pos[b]].thickness_mm))
+    return out
+
+
+def _plane_to_plane(items: list[StackupLayer], top_pos: int, bottom_pos: int):
+    """Dielectrics from the lower plane up (copper as laminate of the layer below it) and each copper item's
+    base height above the lower plane."""
+    stack: list[tuple[float, float]] = []
+    base: dict[int, float] = {}
+    height = 0.0
+    last_er = DEFAULT_EPSILON_R
+    for pos in range(bottom_pos - 1, top_pos, -1):
+        item = items[pos]
+        if item.kind == "copper":
+            base[pos] = height
+            stack.append((item.thickness_mm, last_er))
+        else:
+            last_er = item.epsilon_r
+            stack.append((item.thickness_mm, item.epsilon_r))
+        height += item.thickness_mm
+    return tuple(stack), base
 
 
 @dataclass

@@ -13,12 +13,12 @@ from typing import Callable
 import numpy as np
 
 from scanner.board import Board
-from scanner.coefficients import CouplingLookup, most_used_width
+from scanner.coefficients import BroadsideLookup, CouplingLookup, most_used_width
 from scanner.exact_check import EXACT_CHECKS, exact_peaks
-from scanner.finder import find_coupled_pieces
+from scanner.finder import CoupledPieces, find_broadside_pieces, find_coupled_pieces
 from scanner.fixes import fix_guidance
 from scanner.geometric import check_geometric_limits
-from scanner.layerstack import effective_stackup, layer_environments
+from scanner.layerstack import broadside_environments, effective_stackup, layer_environments
 from scanner.directed import DirectedRuns, directed_noise, directed_runs
 from scanner.rules import NetRoles, Rules, assign_roles
 from scanner.runs import build_runs, CoupledRuns
@@ -57,23 +57,31 @@ def run_scan(board: Board, rules: Rules | None = None, progress: Progress | None
 
     say("finding coupled runs")
     layers = {i: board.layers[i].segments for i in envs}
-    pieces = find_coupled_pieces(layers, search_mm, rules.scan.angle_tolerance_deg,
-                                 net_active=roles.active, net_partner=roles.partner)
+    pairs = broadside_environments(board, stackup, envs, plane_layers)
+    search = dict(search_distance_mm=search_mm, angle_tolerance_deg=rules.scan.angle_tolerance_deg,
+                  net_active=roles.active, net_partner=roles.partner)
+    pieces = CoupledPieces.concat([find_coupled_pieces(layers, **search),
+                                   find_broadside_pieces({k: (layers[k[0]], layers[k[1]]) for k in pairs}, **search)])
     runs = build_runs(pieces, max_gap_mm=RUN_GAP_MM)
     keep = runs.coupled_length_mm >= rules.scan.min_coupled_length_mm
 
     say(f"solving cross-sections for {int(keep.sum())} runs")
-    lookup = CouplingLookup(envs, search_mm, most_used_width(layers))
-    p = runs.pieces
-    kb, kf, velocity = lookup.coefficients(p.layer, 0.5 * (p.width_a_mm + p.width_b_mm),
-                                           np.maximum(p.spacing_mean_mm, MIN_SPACING_MM))
+    anchors = most_used_width(layers)
+    lookup = CouplingLookup(envs, search_mm, anchors)
+    broadside_lookup = BroadsideLookup(pairs, search_mm, anchors)
+    kb, kf, velocity = _piece_coefficients(runs.pieces, lookup, broadside_lookup)
+    broadside_runs = np.bincount(np.repeat(np.arange(len(runs)), np.diff(runs.run_start)),
+                                 weights=runs.pieces.broadside[runs.piece_order], minlength=len(runs)) > 0
 
     say("scoring")
     directed = directed_runs(rules, roles, runs, keep)
     noise = _score(rules, roles, directed, runs, kb, kf, velocity)
     listed = _listed(noise, board, rules)
-    fixes = fix_guidance(directed, listed[noise.status[listed] > 0], runs, lookup, board)
-    hotspots = _with_exact_checks(_hotspots(board, roles, envs, runs, directed, noise, listed, fixes), runs, envs)
+    flagged = listed[noise.status[listed] > 0]
+    fixes = fix_guidance(directed, flagged[~broadside_runs[directed.run[flagged]]], runs, lookup, board)
+    fixes |= {int(j): BROADSIDE_FIX for j in flagged[broadside_runs[directed.run[flagged]]]}
+    hotspots = _hotspots(board, roles, envs, runs, directed, noise, listed, fixes, broadside_runs)
+    hotspots = _with_exact_checks(hotspots, runs, envs, broadside_runs)
     victims = _victim_totals(board, rules, roles, directed, noise)
     geometric = check_geometric_limits(rules, roles, runs, board)
 
@@ -90,7 +98,8 @@ def run_scan(board: Board, rules: Rules | None = None, progress: Progress | None
                   "run_gap_mm": RUN_GAP_MM,
                   "budget_basis": rules.scan.budget_basis,
                   "differential_aggressor": rules.scan.differential_aggressor,
-                  "cross_section_solves": lookup.solve_count},
+                  "broadside_layer_pairs": [f"{board.layers[a].name}/{board.layers[b].name}" for a, b in pairs],
+                  "cross_section_solves": lookup.solve_count + broadside_lookup.solve_count},
         hotspots=hotspots, victims=victims, geometric=geometric, warnings=warnings, runs=runs,
         piece_coefficients=PieceCoefficients(kb, kf, velocity),
         summary=_summary(noise, hotspots, victims, runs, keep),
@@ -177,7 +186,7 @@ def _listed(noise: Noise, board: Board, rules: Rules) -> np.ndarray:
 
 
 def _hotspots(board, roles: NetRoles, envs, runs: CoupledRuns, d: DirectedRuns, noise: Noise,
-              listed: np.ndarray, fixes: dict) -> list[Hotspot]:
+              listed: np.ndarray, fixes: dict, broadside_runs: np.ndarray) -> list[Hotspot]:
     """Hotspot records for the listed directed runs, ranked in the given order (columns built in numpy)."""
     j = listed
     r = d.run[j]
@@ -214,6 +223,8 @@ def _hotspots(board, roles: NetRoles, envs, runs: CoupledRuns, d: DirectedRuns, 
         a, v = int(agg[i]), int(vic[i])
         ac, vc = classes[agg_c[i]], classes[vic_c[i]]
         layers, structure = layer_text[int(runs.layer_mask[rr])]
+        if broadside_runs[rr]:
+            structure = f"{structure} with broadside coupling"
         c = {k: values[i] for k, values in columns.items()}
         aggressor_name = names[a] if not odd[i] else f"{names[a]} / {names[int(partner[i])]}"
         out.append(Hotspot(
@@ -231,10 +242,28 @@ def _hotspots(board, roles: NetRoles, envs, runs: CoupledRuns, d: DirectedRuns, 
     return out
 
 
-def _with_exact_checks(hotspots: list[Hotspot], runs, envs) -> list[Hotspot]:
-    """The exact line simulation for the worst strong-coupling findings (single aggressors)."""
+def _piece_coefficients(p, lookup: CouplingLookup, broadside_lookup: BroadsideLookup):
+    """Kb, Kf, velocity per piece: same-layer pieces by edge spacing, broadside pieces by lateral centre offset."""
+    width = 0.5 * (p.width_a_mm + p.width_b_mm)
+    kb, kf, velocity = lookup.coefficients(p.layer, width, np.maximum(p.spacing_mean_mm, MIN_SPACING_MM))
+    cross = np.flatnonzero(p.broadside)
+    if len(cross):
+        kb[cross], kf[cross], velocity[cross] = broadside_lookup.coefficients(
+            p.layer[cross], p.layer_b[cross], width[cross], p.centre_mean_mm[cross])
+    return kb, kf, velocity
+
+
+#: fix guidance is computed for same-layer runs only
+BROADSIDE_FIX = {"spacing_needed_mm": None, "max_length_mm": None, "alternative_layer": None,
+                 "note": "the run couples broadside to the neighbouring layer: offset the traces in plan view, "
+                         "shorten the overlap, or put a plane between the layers"}
+
+
+def _with_exact_checks(hotspots: list[Hotspot], runs, envs, broadside_runs: np.ndarray) -> list[Hotspot]:
+    """The exact line simulation for the worst strong-coupling findings (single aggressors, same-layer runs)."""
     out = list(hotspots)
-    todo = [i for i, h in enumerate(out) if h.strong_coupling and h.aggressor_model != "differential (odd mode)"]
+    todo = [i for i, h in enumerate(out) if h.strong_coupling and h.aggressor_model != "differential (odd mode)"
+            and not broadside_runs[h.run]]
     for i in todo[:EXACT_CHECKS]:
         h = out[i]
         next_v, fext_v = exact_peaks(runs, h.run, envs, h.rise_time_ns, h.swing_v, h.termination)

@@ -115,7 +115,7 @@ def build_runs(pieces: CoupledPieces, max_gap_mm: float | None = None) -> Couple
     """
     p = pieces
     n = len(p)
-    if n and p.layer.max() > 62:
+    if n and max(p.layer.max(), p.layer_b.max()) > 62:
         raise ValueError("layer indices above 62 do not fit the run layer mask")
     pair_key = p.net_a.astype(np.int64) << np.int64(32) | p.net_b.astype(np.int64)
     uniq, pair = np.unique(pair_key, return_inverse=True)
@@ -144,7 +144,8 @@ def build_runs(pieces: CoupledPieces, max_gap_mm: float | None = None) -> Couple
         net_a=p.net_a[order][start], net_b=p.net_b[order][start], coupled_length_mm=length,
         spacing_min_mm=per_run(np.minimum, p.spacing_min_mm), spacing_mean_mm=weighted(p.spacing_mean_mm),
         width_a_mm=weighted(p.width_a_mm), width_b_mm=weighted(p.width_b_mm),
-        layer_mask=per_run(np.bitwise_or, np.left_shift(np.int64(1), p.layer.astype(np.int64))),
+        layer_mask=per_run(np.bitwise_or, np.left_shift(np.int64(1), p.layer.astype(np.int64))
+                           | np.left_shift(np.int64(1), p.layer_b.astype(np.int64))),
         main_layer=_main_layer(p, run_of), piece_count=np.diff(run_start),
         worst_piece=worst, worst_x_mm=0.5 * (p.x0_mm[worst] + p.x1_mm[worst]),
         worst_y_mm=0.5 * (p.y0_mm[worst] + p.y1_mm[worst]), worst_x0_mm=p.x0_mm[worst],

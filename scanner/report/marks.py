@@ -88,9 +88,10 @@ def _mark(group: list[Finding], x: float, y: float, side: str) -> Mark:
 
 
 def run_rows_on(result: ScanResult, run: int, layer_index: int) -> np.ndarray:
-    """Rows of ``result.runs.pieces`` of one run on one layer, in order along the run."""
+    """Rows of ``result.runs.pieces`` of one run with a trace on one layer, in order along the run."""
     rows = result.runs.pieces_of(run)
-    return rows[result.runs.pieces.layer[rows] == layer_index]
+    p = result.runs.pieces
+    return rows[(p.layer[rows] == layer_index) | (p.layer_b[rows] == layer_index)]
 
 
 def layer_marks(result: ScanResult, board: Board, findings: list[Finding], layer_index: int) -> list[Mark]:
@@ -123,8 +124,9 @@ def role_segments(result: ScanResult, board: Board, finding: Finding | Hotspot,
     p = result.runs.pieces
     rows = run_rows_on(result, finding.run, layer_index)
     victim_is_a = p.net_a[rows] == board.net_id(finding.victim)
-    victim = np.where(victim_is_a, p.seg_a[rows], p.seg_b[rows])
-    aggressor = np.where(victim_is_a, p.seg_b[rows], p.seg_a[rows])
+    a_here, b_here = p.layer[rows] == layer_index, p.layer_b[rows] == layer_index  # broadside: one of the two
+    victim = np.concatenate([p.seg_a[rows][victim_is_a & a_here], p.seg_b[rows][~victim_is_a & b_here]])
+    aggressor = np.concatenate([p.seg_b[rows][victim_is_a & b_here], p.seg_a[rows][~victim_is_a & a_here]])
     return np.unique(victim), np.unique(aggressor)
 
 

@@ -6,12 +6,23 @@ from scanner.board import (Board, CopperLayer, CopperShapes, Holes, Stackup, Sta
 WIDTH = 0.15
 
 
+def stackup_of(*items) -> Stackup:
+    """A stackup from (thickness_mm, epsilon_r) for laminate, ("mask", t, er) for soldermask and a bare
+    thickness for copper, top to bottom; copper layers are numbered in order."""
+    layers, copper = [], 0
+    for item in items:
+        if isinstance(item, (int, float)):
+            layers.append(StackupLayer("copper", f"L{copper + 1}", float(item), None, copper))
+            copper += 1
+        elif item[0] == "mask":
+            layers.append(StackupLayer("soldermask", "mask", item[1], item[2]))
+        else:
+            layers.append(StackupLayer("dielectric", f"d{len(layers)}", item[0], item[1]))
+    return Stackup(tuple(layers), "test")
+
+
 def four_layer_stackup() -> Stackup:
-    S = StackupLayer
-    return Stackup((S("soldermask", "top mask", 0.02, 3.8), S("copper", "L1", 0.035, None, 0),
-                    S("dielectric", "prepreg", 0.2, 4.2), S("copper", "L2", 0.035, None, 1),
-                    S("dielectric", "core", 0.5, 4.5), S("copper", "L3", 0.035, None, 2),
-                    S("dielectric", "prepreg", 0.2, 4.2), S("copper", "L4", 0.035, None, 3)), "test")
+    return stackup_of(("mask", 0.02, 3.8), 0.035, (0.2, 4.2), 0.035, (0.5, 4.5), 0.035, (0.2, 4.2), 0.035)
 
 
 def polyline(points, net, width=WIDTH):

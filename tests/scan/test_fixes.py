@@ -1,5 +1,4 @@
 """Fix guidance: applying the suggested spacing or length and scanning again meets the budget."""
-import numpy as np
 import pytest
 
 from scanner import scan

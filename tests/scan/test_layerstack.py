@@ -1,10 +1,10 @@
 """Signal-layer environments from a stackup."""
-import numpy as np
 import pytest
 
-from scanner.board import Board, CopperLayer, CopperShapes, Holes, Stackup, StackupLayer, TraceSegments
+from scanner.board import Board, CopperLayer, CopperShapes, Holes, TraceSegments
 from scanner.errors import InputError
 from scanner.layerstack import default_stackup, effective_stackup, layer_environments
+from tests.scan.synthetic import stackup_of
 
 
 def _board(kinds):
@@ -14,14 +14,8 @@ def _board(kinds):
 
 
 def _six_layer():
-    S = StackupLayer
-    return Stackup((S("soldermask", "m", 0.02, 3.8), S("copper", "L1", 0.035, None, 0),
-                    S("dielectric", "p1", 0.2, 4.2), S("copper", "L2", 0.035, None, 1),
-                    S("dielectric", "c1", 0.3, 4.5), S("copper", "L3", 0.018, None, 2),
-                    S("dielectric", "p2", 0.25, 4.3), S("copper", "L4", 0.035, None, 3),
-                    S("dielectric", "c2", 0.3, 4.5), S("copper", "L5", 0.035, None, 4),
-                    S("dielectric", "p3", 0.2, 4.2), S("copper", "L6", 0.035, None, 5),
-                    S("soldermask", "m", 0.02, 3.8)), "test")
+    return stackup_of(("mask", 0.02, 3.8), 0.035, (0.2, 4.2), 0.035, (0.3, 4.5), 0.018, (0.25, 4.3), 0.035,
+                      (0.3, 4.5), 0.035, (0.2, 4.2), 0.035, ("mask", 0.02, 3.8))
 
 
 def test_six_layer_environments():
@@ -31,7 +25,8 @@ def test_six_layer_environments():
     assert top.structure == "microstrip" and top.toward_plane == ((0.2, 4.2),) and top.soldermask == (0.02, 3.8)
     # offset stripline: 0.25 mm to L4 is nearer than 0.3 mm to L2, so L4 is its reference side
     assert inner.structure == "stripline"
-    assert inner.toward_plane == ((0.25, 4.3),) and inner.away == ((0.3, 4.5),)
+    # its own copper (0.018 mm, embedded in the laminate) counts in the plane-to-plane distance
+    assert inner.toward_plane == ((0.25, 4.3),) and inner.away == ((0.018, 4.5), (0.3, 4.5))
     assert bottom.structure == "microstrip" and bottom.height_mm == pytest.approx(0.2)
     assert set(envs) == {0, 2, 5}
 
