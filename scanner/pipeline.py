@@ -102,7 +102,7 @@ def run_scan(board: Board, rules: Rules | None = None, progress: Progress | None
                   "cross_section_solves": lookup.solve_count + broadside_lookup.solve_count},
         hotspots=hotspots, victims=victims, geometric=geometric, warnings=warnings, runs=runs,
         piece_coefficients=PieceCoefficients(kb, kf, velocity),
-        summary=_summary(noise, hotspots, victims, runs, keep),
+        summary=_summary(noise, hotspots, victims, runs, keep) | {"list_floor": rules.scan.list_floor},
     )
 
 
@@ -175,13 +175,9 @@ def _odd_mode(roles: NetRoles, d: DirectedRuns, next_v, fext_v):
     return next_v, fext_v, used, combined, alive
 
 
-#: findings under this fraction of their budget are counted in the summary but not listed
-LIST_FLOOR = 0.05
-
-
 def _listed(noise: Noise, board: Board, rules: Rules) -> np.ndarray:
-    """Directed runs to list, ranked: most budget used first, then victim and aggressor name."""
-    candidates = np.flatnonzero(noise.alive & (noise.used >= LIST_FLOOR))
+    """Directed runs to list, ranked by budget used: every warn and fail, passes from ``list_floor`` up."""
+    candidates = np.flatnonzero(noise.alive & ((noise.used >= rules.scan.list_floor) | (noise.status > 0)))
     return candidates[np.argsort(-noise.used[candidates], kind="stable")]
 
 
@@ -207,38 +203,35 @@ def _hotspots(board, roles: NetRoles, envs, runs: CoupledRuns, d: DirectedRuns, 
     odd = noise.odd_mode[j]
     model = np.where(partner < 0, "single", np.where(odd, "differential (odd mode)", "differential (two lines)"))
     names = board.nets
-    columns = dict(
-        coupled_length_mm=col(runs.coupled_length_mm[r]), min_spacing_mm=col(runs.spacing_min_mm[r], 4),
-        mean_spacing_mm=col(runs.spacing_mean_mm[r], 4), x_mm=col(runs.worst_x_mm[r]), y_mm=col(runs.worst_y_mm[r]),
-        x0=col(runs.worst_x0_mm[r]), y0=col(runs.worst_y0_mm[r]), x1=col(runs.worst_x1_mm[r]),
-        y1=col(runs.worst_y1_mm[r]), bx0=col(runs.x_min_mm[r]), by0=col(runs.y_min_mm[r]),
-        bx1=col(runs.x_max_mm[r]), by1=col(runs.y_max_mm[r]),
-        next_mv=col(noise.next_v[j] * 1e3), fext_mv=col(noise.fext_v[j] * 1e3),
-        next_pct=col(100 * noise.next_v[j] / vic_swing), fext_pct=col(100 * noise.fext_v[j] / vic_swing),
-        next_budget_mv=col(d.next_budget_v[j] * 1e3), fext_budget_mv=col(d.fext_budget_v[j] * 1e3),
-        budget_used=col(noise.used[j], 4), kb_max=col(noise.kb_max[j], 5),
-    )
+    status = [STATUS_NAMES[k] for k in noise.status[j].tolist()]
+    aggressor_names = [names[a] if not o else f"{names[a]} / {names[p]}"
+                       for a, p, o in zip(agg.tolist(), partner.tolist(), odd.tolist())]
+    layer_info = [layer_text[m] for m in runs.layer_mask[r].tolist()]
+    structures = [f"{s} with broadside coupling" if b else s
+                  for (_, s), b in zip(layer_info, broadside_runs[r].tolist())]
+    main_layer = [board.layers[k].name for k in runs.main_layer[r].tolist()]
+    kb_max = col(noise.kb_max[j], 5)
+    rows = zip(
+        j.tolist(), r.tolist(), status, [names[v] for v in vic.tolist()], aggressor_names,
+        [classes[k] for k in agg_c.tolist()], [classes[k] for k in vic_c.tolist()], model.tolist(), main_layer,
+        layer_info, structures, col(runs.coupled_length_mm[r]), col(runs.spacing_min_mm[r], 4),
+        col(runs.spacing_mean_mm[r], 4), col(runs.worst_x_mm[r]), col(runs.worst_y_mm[r]),
+        zip(col(runs.worst_x0_mm[r]), col(runs.worst_y0_mm[r]), col(runs.worst_x1_mm[r]), col(runs.worst_y1_mm[r])),
+        zip(col(runs.x_min_mm[r]), col(runs.y_min_mm[r]), col(runs.x_max_mm[r]), col(runs.y_max_mm[r])),
+        col(noise.next_v[j] * 1e3), col(noise.fext_v[j] * 1e3), col(100 * noise.next_v[j] / vic_swing),
+        col(100 * noise.fext_v[j] / vic_swing), col(d.next_budget_v[j] * 1e3), col(d.fext_budget_v[j] * 1e3),
+        col(noise.used[j], 4), kb_max)
     out = []
-    for i, (jj, rr) in enumerate(zip(j.tolist(), r.tolist())):
-        a, v = int(agg[i]), int(vic[i])
-        ac, vc = classes[agg_c[i]], classes[vic_c[i]]
-        layers, structure = layer_text[int(runs.layer_mask[rr])]
-        if broadside_runs[rr]:
-            structure = f"{structure} with broadside coupling"
-        c = {k: values[i] for k, values in columns.items()}
-        aggressor_name = names[a] if not odd[i] else f"{names[a]} / {names[int(partner[i])]}"
+    for rank, (jj, rr, st, victim, aggressor, ac, vc, mdl, main, (layers, _), structure, length, s_min, s_mean,
+               x, y, extent, bbox, n_mv, f_mv, n_pct, f_pct, n_budget, f_budget, used, kb) in enumerate(rows, 1):
         out.append(Hotspot(
-            rank=i + 1, status=STATUS_NAMES[int(noise.status[jj])], victim=names[v], aggressor=aggressor_name,
-            victim_class=vc.name, aggressor_class=ac.name, aggressor_model=str(model[i]),
-            layer=board.layers[int(runs.main_layer[rr])].name, layers=layers, structure=structure,
-            coupled_length_mm=c["coupled_length_mm"], min_spacing_mm=c["min_spacing_mm"],
-            mean_spacing_mm=c["mean_spacing_mm"], x_mm=c["x_mm"], y_mm=c["y_mm"],
-            extent_mm=[c["x0"], c["y0"], c["x1"], c["y1"]], bbox_mm=[c["bx0"], c["by0"], c["bx1"], c["by1"]],
-            next_mv=c["next_mv"], fext_mv=c["fext_mv"], next_pct=c["next_pct"], fext_pct=c["fext_pct"],
-            next_budget_mv=c["next_budget_mv"], fext_budget_mv=c["fext_budget_mv"], budget_used=c["budget_used"],
-            kb_max=c["kb_max"], strong_coupling=c["kb_max"] > STRONG_KB, rise_time_ns=ac.rise_time_ns,
-            swing_v=ac.swing_v, termination=vc.termination, victim_swing_v=vc.swing_v, run=rr, direction=jj,
-            fix=fixes.get(jj)))
+            rank=rank, status=st, victim=victim, aggressor=aggressor, victim_class=vc.name,
+            aggressor_class=ac.name, aggressor_model=mdl, layer=main, layers=layers, structure=structure,
+            coupled_length_mm=length, min_spacing_mm=s_min, mean_spacing_mm=s_mean, x_mm=x, y_mm=y,
+            extent_mm=list(extent), bbox_mm=list(bbox), next_mv=n_mv, fext_mv=f_mv, next_pct=n_pct, fext_pct=f_pct,
+            next_budget_mv=n_budget, fext_budget_mv=f_budget, budget_used=used, kb_max=kb,
+            strong_coupling=kb > STRONG_KB, rise_time_ns=ac.rise_time_ns, swing_v=ac.swing_v,
+            termination=vc.termination, victim_swing_v=vc.swing_v, run=rr, direction=jj, fix=fixes.get(jj)))
     return out
 
 
@@ -342,6 +335,6 @@ def _summary(noise: Noise, hotspots, victims, runs, keep) -> dict:
     return {"coupled_runs": int(keep.sum()), "coupled_pieces": len(runs.pieces),
             "findings": int(alive.sum()), "findings_fail": int((alive & (noise.status == 2)).sum()),
             "findings_warn": int((alive & (noise.status == 1)).sum()),
-            "hotspots_listed": len(hotspots), "list_floor": LIST_FLOOR,
+            "hotspots_listed": len(hotspots),
             "victims": len(victims), "victims_fail": count["fail"], "victims_warn": count["warn"],
             "victims_pass": count["pass"]}

@@ -115,6 +115,7 @@ class ScanSettings:
     min_coupled_length_mm: float = 2.0
     angle_tolerance_deg: float = 10.0
     warn_fraction: float = 0.8  # warn at 80 % of budget and above
+    list_floor: float = 0.2  # passing findings under this fraction of budget are counted, not listed
     budget_basis: str = "worst-case"
     differential_aggressor: str = "two-lines"
     auto_diff_pairs: bool = True
@@ -261,7 +262,7 @@ _CLASS_KEYS = {
 }
 _SCAN_KEYS = {
     "search_distance_mm": float, "min_coupled_length_mm": float, "angle_tolerance_deg": float,
-    "warn_fraction": float, "budget_basis": str, "differential_aggressor": str, "auto_diff_pairs": bool,
+    "warn_fraction": float, "list_floor": float, "budget_basis": str, "differential_aggressor": str, "auto_diff_pairs": bool,
 }
 _STACK_KEYS = {"kind": str, "name": str, "thickness_mm": float, "epsilon_r": float}
 _PAIR_KEYS = {
@@ -313,6 +314,8 @@ def parse_rules(doc: dict, source: str) -> Rules:
         raise bad("[scan] angle_tolerance_deg must be between 0 and 45")
     if "warn_fraction" in scan_kw and not 0 < scan_kw["warn_fraction"] <= 1:
         raise bad("[scan] warn_fraction must be in (0, 1]")
+    if "list_floor" in scan_kw and not 0 <= scan_kw["list_floor"] <= 1:
+        raise bad("[scan] list_floor must be in [0, 1]")
     scan = ScanSettings(**scan_kw)
 
     classes = []

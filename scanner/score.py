@@ -25,9 +25,12 @@ def status_for(fraction: float, warn_fraction: float) -> str:
     return "pass"
 
 
-@dataclass(frozen=True)
+@dataclass(slots=True)
 class Hotspot:
-    """One aggressor coupling into one victim over one coupled run."""
+    """One aggressor coupling into one victim over one coupled run.
+
+    Not frozen: a board can list hundreds of thousands, and frozen dataclasses set every field through
+    ``object.__setattr__``; treat it as read-only all the same."""
 
     rank: int
     status: str

@@ -12,7 +12,7 @@ NETS = ["FAST_A", "FAST_B", "SLOW_X", "SLOW_Y", "GND", "PAIR_P", "PAIR_N", "FAR_
 N = {name: i for i, name in enumerate(NETS)}
 
 RULES = parse_rules({
-    "scan": {"search_distance_mm": 0.8, "min_coupled_length_mm": 1.0},
+    "scan": {"search_distance_mm": 0.8, "min_coupled_length_mm": 1.0, "list_floor": 0.0},
     "class": [{"name": "fast", "nets": ["FAST_*", "PAIR_*", "DIAG_*", "ARC_*", "VAR_*", "FAR_*", "CROSS_*"],
                "rise_time_ns": 0.5, "swing_v": 1.0, "termination": "matched"},
               {"name": "slow", "nets": ["SLOW_*"], "rise_time_ns": 10.0, "swing_v": 1.0, "termination": "matched"}],
