@@ -73,37 +73,43 @@ def _near_end_peak(kb, s_begin, s_end, run_of_piece, counts, ramp_s) -> np.ndarr
     With pieces end to end (s_end_k = s_begin_{k+1}) the sum is sum_j c_j r(t - b_j) over the
     breakpoints b_j with steps c_j = kb_j - kb_{j-1}. Prefix sums of c and c*b over the sorted
     breakpoints give it at any t in O(log K); every run is shifted by its own offset so one
-    global searchsorted serves all runs at once.
+    global searchsorted serves all runs at once. The breakpoints are already in order (each
+    run's piece starts, then its end), so they are laid out sorted without a sort.
     """
     n_runs = len(counts)
     if len(kb) == 0:
         return np.zeros(n_runs)
     first = np.cumsum(counts) - counts
     last = first + counts - 1
-    # breakpoints: each piece's start, plus the run's end; steps of the Kb profile
+    # slots: piece k of run r at k + r, run r's end right after its last piece
+    piece_slot = np.arange(len(kb)) + run_of_piece
+    end_slot = last + np.arange(n_runs) + 1
+    n_points = len(kb) + n_runs
+    points = np.empty(n_points)
+    steps = np.empty(n_points)
+    run_of_point = np.empty(n_points, dtype=np.int64)
     step = kb - np.concatenate([[0.0], kb[:-1]])
     step[first] = kb[first]
-    points = np.concatenate([s_begin, s_end[last]])
-    steps = np.concatenate([step, -kb[last]])
-    run_of_point = np.concatenate([run_of_piece, np.arange(n_runs)])
+    points[piece_slot], points[end_slot] = s_begin, s_end[last]
+    steps[piece_slot], steps[end_slot] = step, -kb[last]
+    run_of_point[piece_slot], run_of_point[end_slot] = run_of_piece, np.arange(n_runs)
     span = float(np.max(s_end) + np.max(ramp_s)) * 2 + 1e-30
-    key = points + run_of_point * span
-    order = np.argsort(key, kind="stable")
-    key, steps, points, run_of_point = key[order], steps[order], points[order], run_of_point[order]
+    offset = run_of_point * span
+    key = points + offset
     c0 = np.concatenate([[0.0], np.cumsum(steps)])
     c1 = np.concatenate([[0.0], np.cumsum(steps * points)])
     ramp = ramp_s[run_of_point]
-    offset = run_of_point * span
+    after = np.arange(1, n_points + 1)  # prefix index just past each breakpoint
 
-    def value(t_local):
-        t = t_local + offset
-        hi = np.searchsorted(key, t, side="right")
-        lo = np.searchsorted(key, t - ramp, side="right")
+    def value(t_local, lo, hi):
         # run boundaries: prefix sums restart per run because every run's steps sum to zero
-        inside = (c0[hi] - c0[lo]) * t_local - (c1[hi] - c1[lo])
-        return c0[lo] + inside / ramp
+        return c0[lo] + ((c0[hi] - c0[lo]) * t_local - (c1[hi] - c1[lo])) / ramp
 
-    v = np.maximum(np.abs(value(points)), np.abs(value(points + ramp)))
+    # at a breakpoint b: terms up to b itself have started (equal breakpoints add r(0) = 0);
+    # at b + T: terms up to b are complete
+    at_point = value(points, np.searchsorted(key, key - ramp, side="right"), after)
+    at_ramp_end = value(points + ramp, after, np.searchsorted(key, key + ramp, side="right"))
+    v = np.maximum(np.abs(at_point), np.abs(at_ramp_end))
     peak = np.zeros(n_runs)
     np.maximum.at(peak, run_of_point, v)
     return peak

@@ -20,8 +20,8 @@ import numpy as np
 from scanner.coefficients import TABLE_MIN_SPACING_MM, CouplingLookup
 from scanner.directed import DirectedRuns, directed_noise as noise
 
-#: steps halve the log-interval: 18 steps bring 0.02-3 mm (spacing) to 0.002 % and 1e-4-50 (length factor) to 0.005 %
-BISECTION_STEPS = 18
+#: steps halve the log-interval: 14 steps bring 0.02-3 mm (spacing) to 0.03 % and 1e-4-50 (length factor) to 0.08 %
+BISECTION_STEPS = 14
 MAX_LENGTH_FACTOR = 50.0
 
 
