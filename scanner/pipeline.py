@@ -77,9 +77,8 @@ def run_scan(board: Board, rules: Rules | None = None, progress: Progress | None
     directed = directed_runs(rules, roles, runs, keep)
     noise = _score(rules, roles, directed, runs, kb, kf, velocity)
     listed = _listed(noise, board, rules)
-    flagged = listed[noise.status[listed] > 0]
-    fixes = fix_guidance(directed, flagged[~broadside_runs[directed.run[flagged]]], runs, lookup, board)
-    fixes |= {int(j): BROADSIDE_FIX for j in flagged[broadside_runs[directed.run[flagged]]]}
+    fixes = fix_guidance(directed, listed[noise.status[listed] > 0], runs, lookup, board, (kb, kf, velocity),
+                         broadside_runs)
     hotspots = _hotspots(board, roles, envs, runs, directed, noise, listed, fixes, broadside_runs)
     hotspots = _with_exact_checks(hotspots, runs, envs, broadside_runs)
     victims = _victim_totals(board, rules, roles, directed, noise)
@@ -244,12 +243,6 @@ def _piece_coefficients(p, lookup: CouplingLookup, broadside_lookup: BroadsideLo
         kb[cross], kf[cross], velocity[cross] = broadside_lookup.coefficients(
             p.layer[cross], p.layer_b[cross], width[cross], p.centre_mean_mm[cross])
     return kb, kf, velocity
-
-
-#: fix guidance is computed for same-layer runs only
-BROADSIDE_FIX = {"spacing_needed_mm": None, "max_length_mm": None, "alternative_layer": None,
-                 "note": "the run couples broadside to the neighbouring layer: offset the traces in plan view, "
-                         "shorten the overlap, or put a plane between the layers"}
 
 
 def _with_exact_checks(hotspots: list[Hotspot], runs, envs, broadside_runs: np.ndarray) -> list[Hotspot]:

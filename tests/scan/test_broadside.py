@@ -91,6 +91,9 @@ def test_scan_reports_broadside_coupling():
     # stacked right over each other with 0.15 mm of laminate between: strong near-end coupling
     assert h.next_mv > 100 and h.status == "fail"
     assert h.fix["spacing_needed_mm"] is None and "broadside" in h.fix["note"]
+    shorter = next(x for x in scan(stacked(0.0, length_mm=h.fix["max_length_mm"]), RULES).hotspots
+                   if x.victim == "LOWER")
+    assert shorter.budget_used == pytest.approx(1.0, abs=0.02)  # the suggested overlap meets the budget
     far = scan(stacked(0.45), RULES)
     near_offset = next(h for h in far.hotspots if h.victim == "LOWER")
     assert near_offset.next_mv < h.next_mv / 3  # moving the traces apart in plan view cuts the coupling
