@@ -76,7 +76,7 @@ def run_scan(board: Board, rules: Rules | None = None, progress: Progress | None
     say("scoring")
     directed = directed_runs(rules, roles, runs, keep)
     noise = _score(rules, roles, directed, runs, kb, kf, velocity)
-    listed = _listed(noise, board, rules)
+    listed = _listed(noise, rules)
     fixes = fix_guidance(directed, listed[noise.status[listed] > 0], runs, lookup, board, (kb, kf, velocity),
                          broadside_runs)
     hotspots = _hotspots(board, roles, envs, runs, directed, noise, listed, fixes, broadside_runs)
@@ -174,7 +174,7 @@ def _odd_mode(roles: NetRoles, d: DirectedRuns, next_v, fext_v):
     return next_v, fext_v, used, combined, alive
 
 
-def _listed(noise: Noise, board: Board, rules: Rules) -> np.ndarray:
+def _listed(noise: Noise, rules: Rules) -> np.ndarray:
     """Directed runs to list, ranked by budget used: every warn and fail, passes from ``list_floor`` up."""
     candidates = np.flatnonzero(noise.alive & ((noise.used >= rules.scan.list_floor) | (noise.status > 0)))
     return candidates[np.argsort(-noise.used[candidates], kind="stable")]

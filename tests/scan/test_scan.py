@@ -140,3 +140,25 @@ def test_exit_code_follows_victim_status(result):
     lenient = parse_rules({"class": [{"name": "all", "nets": ["*"], "next_budget_pct": 90, "fext_budget_pct": 90}]},
                           "lenient")
     assert scan(planted_board(), lenient).exit_code == 0
+
+
+def test_differential_aggressor_models():
+    """A pair beside a victim: as two lines the legs' noise adds; in odd mode the legs drive opposite
+    edges and their contributions subtract (the nearer leg dominates)."""
+    w = WIDTH
+    rows = (polyline([(0, 0), (40, 0)], 0) + polyline([(0, w + 0.2), (40, w + 0.2)], 1)
+            + polyline([(0, 2 * w + 0.3), (40, 2 * w + 0.3)], 2))
+    board = board_from({0: rows}, ["VICTIM", "LINK_P", "LINK_N"])
+    base = {"scan": {"search_distance_mm": 0.8, "min_coupled_length_mm": 1.0, "list_floor": 0.0},
+            "class": [{"name": "all", "nets": ["*"], "rise_time_ns": 0.5, "swing_v": 1.0, "termination": "matched"}]}
+    two = scan(board, parse_rules(base, "two"))
+    legs = {h.aggressor: h for h in two.hotspots if h.victim == "VICTIM"}
+    assert set(legs) == {"LINK_P", "LINK_N"}
+    assert all(h.aggressor_model == "differential (two lines)" for h in legs.values())
+    odd_rules = parse_rules(base | {"scan": base["scan"] | {"differential_aggressor": "odd-mode"}}, "odd")
+    (odd,) = [h for h in scan(board, odd_rules).hotspots if h.victim == "VICTIM"]
+    assert odd.aggressor_model == "differential (odd mode)" and odd.aggressor == "LINK_P / LINK_N"
+    assert odd.next_mv == pytest.approx(abs(legs["LINK_P"].next_mv - legs["LINK_N"].next_mv), abs=2e-3)
+    assert odd.next_mv < legs["LINK_P"].next_mv  # the far leg cancels part of the near leg's noise
+    # the pair's own members are never scored against each other
+    assert not any({h.victim, h.aggressor} == {"LINK_P", "LINK_N"} for h in two.hotspots)
