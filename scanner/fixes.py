@@ -91,7 +91,7 @@ def _spacing_and_layer(sub: DirectedRuns, runs, lookup: CouplingLookup, board):
 
     reach = np.minimum.reduceat(prepared.reach_mm, sub.piece_start[:-1])
     needed = _bisect(used_at_spacing, np.full(len(sub), TABLE_MIN_SPACING_MM), reach, increasing=False, log=True)
-    alternatives = _alternative_layers(sub, runs, lookup, board, layer, width, spacing, length_m, piece_run)
+    alternatives = _alternative_layers(sub, runs, lookup, board, width, spacing, length_m, piece_run)
     return needed, reach, alternatives
 
 
@@ -113,7 +113,7 @@ def _bisect(fn, lo, hi, increasing: bool, log: bool) -> np.ndarray:
     return np.where(ok, lo if increasing else hi, np.nan)
 
 
-def _alternative_layers(sub, runs, lookup, board, layer, width, spacing, length_m, piece_run):
+def _alternative_layers(sub, runs, lookup, board, width, spacing, length_m, piece_run):
     striplines = sorted(i for i, e in lookup.envs.items() if e.structure == "stripline")
     out = [None] * len(sub)
     if not striplines:

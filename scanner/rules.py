@@ -9,6 +9,7 @@ from __future__ import annotations
 import fnmatch
 import re
 import tomllib
+from functools import lru_cache
 from dataclasses import dataclass, field, asdict
 from pathlib import Path
 
@@ -141,12 +142,12 @@ class Rules:
     def class_of(self, net_name: str) -> NetClass:
         """The first class (in file order) whose pattern matches; the default class otherwise."""
         for cls in self.classes:
-            if any(_match(net_name, p) for p in cls.patterns):
+            if _compile(cls.patterns).match(net_name.upper()):
                 return cls
         return DEFAULT_CLASS
 
     def is_power(self, net_name: str) -> bool:
-        return any(_match(net_name, p) for p in self.power_patterns)
+        return bool(_compile(self.power_patterns).match(net_name.upper()))
 
     def to_dict(self) -> dict:
         d = {
@@ -164,11 +165,8 @@ class Rules:
         return d
 
 
-def _match(name: str, pattern: str) -> bool:
-    return fnmatch.fnmatchcase(name.upper(), pattern.upper())
-
-
-def _compile(patterns) -> re.Pattern:
+@lru_cache(maxsize=256)
+def _compile(patterns: tuple[str, ...]) -> re.Pattern:
     """One regular expression matching an upper-cased name against any of the wildcard patterns."""
     if not patterns:
         return re.compile(r"(?!)")
