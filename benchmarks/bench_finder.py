@@ -17,8 +17,8 @@ import numpy as np
 sys.path.insert(0, str(Path(__file__).resolve().parent))
 from make_large_board import make_layers, run_per_size  # noqa: E402
 
-from scanner.finder import find_coupled_pieces  # noqa: E402
-from scanner.runs import build_runs  # noqa: E402
+from scanner.coupling.finder import find_coupled_pieces  # noqa: E402
+from scanner.coupling.runs import build_runs  # noqa: E402
 
 SIZES = (10_000, 100_000, 1_000_000)
 SEARCH_MM = 0.5

@@ -25,8 +25,8 @@ sys.path.insert(0, str(Path(__file__).resolve().parent))
 from make_large_board import make_layers, run_per_size  # noqa: E402
 
 from scanner import scan  # noqa: E402
-from scanner.board import Board, CopperLayer, CopperShapes, Holes, TraceSegments  # noqa: E402
-from scanner.layerstack import default_stackup  # noqa: E402
+from scanner.board.model import Board, CopperLayer, CopperShapes, Holes, TraceSegments  # noqa: E402
+from scanner.board.layerstack import default_stackup  # noqa: E402
 from scanner.rules import parse_rules  # noqa: E402
 
 SIZES = (10_000, 100_000, 1_000_000)

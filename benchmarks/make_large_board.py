@@ -16,7 +16,7 @@ import sys
 
 import numpy as np
 
-from scanner.board import TraceSegments
+from scanner.board.model import TraceSegments
 
 LAYERS = 4
 #: board area per segment (mm^2); sets the density (about 13 candidate pairs per segment at 0.5 mm)

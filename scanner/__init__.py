@@ -23,14 +23,14 @@ from scanner.errors import InputError
 
 
 def load_board(path, board_file=None):
-    """Read a board folder or archive into a :class:`scanner.board.Board`."""
+    """Read a board folder or archive into a :class:`scanner.board.model.Board`."""
     from scanner.importers import load_board as _load
 
     return _load(path, board_file=board_file)
 
 
 def scan(board, rules=None, progress=None):
-    """Find coupled runs, score them against the rules and return a :class:`scanner.score.ScanResult`."""
+    """Find coupled runs, score them against the rules and return a :class:`scanner.scoring.results.ScanResult`."""
     from scanner.pipeline import run_scan
 
     return run_scan(board, rules, progress=progress)

@@ -7,7 +7,7 @@ from pathlib import Path
 import click
 
 from scanner import load_board
-from scanner.board import Board
+from scanner.board.model import Board
 
 #: faults quoted on the terminal (all of them are in --json)
 SHOWN_FAULTS = 10

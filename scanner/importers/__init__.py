@@ -1,4 +1,4 @@
-"""Turn a board folder or archive into a :class:`scanner.board.Board`.
+"""Turn a board folder or archive into a :class:`scanner.board.model.Board`.
 
 One module per format; the registry (``registry.py``) picks the importer that claims the
 files best. Importers come from the ``nearfar.importers`` entry-point group.
@@ -8,7 +8,7 @@ from __future__ import annotations
 import tempfile
 from pathlib import Path
 
-from scanner.board import Board
+from scanner.board.model import Board
 from scanner.errors import InputError, printable
 from scanner.importers.odbpp.archive import TAR_SUFFIXES, extract_job_archive
 from scanner.importers.registry import choose, discover

@@ -13,7 +13,7 @@ from gerbonara.utils import MM
 
 from scanner.importers import thermal
 from scanner.importers.arcs import flatten_arcs, ring_points
-from scanner.limits import coordinate_problem
+from scanner.input_limits import coordinate_problem
 
 thermal.register()
 

@@ -3,8 +3,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from scanner.board import ARC_CHORD_TOLERANCE_MM
-from scanner.limits import SEGMENTS, check_count
+from scanner.board.model import ARC_CHORD_TOLERANCE_MM
+from scanner.input_limits import SEGMENTS, check_count
 
 #: upper bound on pieces per arc, so a corrupt radius cannot exhaust memory
 MAX_PIECES_PER_ARC = 4096
@@ -26,7 +26,7 @@ def flatten_arcs(x0, y0, x1, y1, cx, cy, clockwise, tolerance_mm: float = ARC_CH
 
     Centres are absolute. Returns ``(counts, px, py)``: arc ``k`` owns ``counts[k]`` consecutive points.
     Start and end radii may differ slightly (file rounding); the radius is blended linearly along the sweep.
-    More pieces in one call than the segment limit (``scanner.limits``) is an InputError.
+    More pieces in one call than the segment limit (``scanner.input_limits``) is an InputError.
     """
     x0, y0, x1, y1, cx, cy = (np.asarray(v, dtype=np.float64) for v in (x0, y0, x1, y1, cx, cy))
     clockwise = np.asarray(clockwise, dtype=bool)

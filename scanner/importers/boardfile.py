@@ -12,7 +12,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from scanner.errors import InputError
-from scanner.limits import read_input
+from scanner.input_limits import read_input
 
 BOARD_FILE_NAME = "nearfar-board.toml"
 

@@ -10,11 +10,11 @@ from gerbonara import graphic_objects as go
 from gerbonara.excellon import ExcellonParser, ProgramState
 from gerbonara.utils import MM
 
-from scanner.board import Holes, NO_NET
+from scanner.board.model import Holes, NO_NET
 from scanner.errors import InputError
 from scanner.importers.diagnostics import FileWarnings
 from scanner.importers.gerber_copper import PARSER_ERRORS, CheckedObjects, _split_location
-from scanner.limits import coordinate_problem, read_input
+from scanner.input_limits import coordinate_problem, read_input
 
 _NON_PLATED_NAME = re.compile(r"npth|non[-_ ]?plated|unplated|nplt|np[-_.]", re.I)
 _PLATED_NAME = re.compile(r"pth|plated|plt", re.I)

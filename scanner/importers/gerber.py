@@ -8,7 +8,7 @@ from pathlib import Path
 
 import numpy as np
 
-from scanner.board import NO_NET, Board, CopperLayer, CopperShapes, Holes, NetlistPoints, TraceSegments
+from scanner.board.model import NO_NET, Board, CopperLayer, CopperShapes, Holes, NetlistPoints, TraceSegments
 from scanner.errors import InputError
 from scanner.importers.boardfile import BOARD_FILE_NAME, BoardFile, read_board_file
 from scanner.importers.excellon import read_drills
@@ -19,8 +19,8 @@ from scanner.importers.layer_order import CopperFile, copper_files, guess_from_n
 from scanner.importers.outline import find_profile, read_outline
 from scanner.importers.planes import classify_planes, copper_box
 from scanner.importers.sources import SourceFile, folder_name, named_kind
-from scanner.limits import SEGMENTS, check_count
-from scanner.netmap import assign_nets
+from scanner.input_limits import SEGMENTS, check_count
+from scanner.board.netmap import assign_nets
 
 #: netlist points further than this outside the board's outline (or copper extent) are off the board (mm)
 OFF_BOARD_MARGIN_MM = 1.0

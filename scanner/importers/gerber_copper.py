@@ -17,7 +17,7 @@ from scanner.importers.apertures import (QUAD_SEGS, aperture_outline, aperture_p
                                          swept_width_mm)
 from scanner.importers.arcs import flatten_arcs
 from scanner.importers.diagnostics import FileWarnings
-from scanner.limits import OBJECTS, SEGMENTS, check_count, coordinate_problem, limit, read_input
+from scanner.input_limits import OBJECTS, SEGMENTS, check_count, coordinate_problem, limit, read_input
 
 #: draws shorter than this (mm) are flashes in disguise and become pads
 ZERO_LENGTH_MM = 1e-6

@@ -15,7 +15,7 @@ from pathlib import Path
 import numpy as np
 
 from scanner.errors import InputError, printable
-from scanner.limits import OBJECTS, check_count, coordinate_problem, read_input
+from scanner.input_limits import OBJECTS, check_count, coordinate_problem, read_input
 from scanner.units import MM_PER_INCH
 
 #: mm per coordinate count for each ``P  UNITS`` value (inch files count 0.0001 in, metric 0.001 mm)

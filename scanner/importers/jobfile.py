@@ -5,9 +5,9 @@ import json
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from scanner.board import Stackup, StackupLayer
+from scanner.board.model import Stackup, StackupLayer
 from scanner.errors import InputError, printable
-from scanner.limits import read_input
+from scanner.input_limits import read_input
 
 
 #: stackup layer thickness must lie in (0, MAX_THICKNESS_MM) mm, as in the rules file

@@ -13,7 +13,7 @@ from scanner.importers.arcs import flatten_arcs
 from scanner.importers.diagnostics import FileWarnings
 from scanner.importers.gerber_copper import parse_gerber
 from scanner.importers.sources import SourceFile
-from scanner.limits import SEGMENTS, check_count, limit
+from scanner.input_limits import SEGMENTS, check_count, limit
 
 _PROFILE_NAME = re.compile(r"edge[._-]?cuts|outline|profile|board[._-]?edge|\.gko$|\.gm1$", re.I)
 

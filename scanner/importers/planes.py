@@ -4,8 +4,8 @@ from __future__ import annotations
 import numpy as np
 import shapely
 
-from scanner.board import CopperLayer
-from scanner.netmap import exact_touch
+from scanner.board.model import CopperLayer
+from scanner.board.netmap import exact_touch
 
 #: a layer whose pours cover more than this share of the board may be a plane ...
 PLANE_FILL_RATIO = 0.4

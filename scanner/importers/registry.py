@@ -10,7 +10,7 @@ from importlib.metadata import entry_points
 from pathlib import Path
 from typing import Protocol
 
-from scanner.board import Board
+from scanner.board.model import Board
 from scanner.errors import InputError
 from scanner.importers.sources import SourceFile
 

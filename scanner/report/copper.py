@@ -15,7 +15,7 @@ from matplotlib.collections import LineCollection
 from matplotlib.patches import PathPatch
 from matplotlib.path import Path
 
-from scanner.board import CopperLayer, TraceSegments
+from scanner.board.model import CopperLayer, TraceSegments
 from scanner.report import palette
 
 #: above this many drawn items a layer's copper is rasterised in vector output

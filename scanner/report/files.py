@@ -7,7 +7,7 @@ import json
 from pathlib import Path
 
 from scanner.outputs import write_atomic
-from scanner.score import ScanResult
+from scanner.scoring.results import ScanResult
 
 CSV_COLUMNS = ("rank", "status", "victim", "aggressor", "victim_class", "aggressor_class", "layer", "structure",
                "coupled_length_mm", "min_spacing_mm", "mean_spacing_mm", "x_mm", "y_mm", "next_mv", "fext_mv",

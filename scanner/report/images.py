@@ -17,14 +17,14 @@ from matplotlib.collections import LineCollection
 from matplotlib.lines import Line2D
 from matplotlib.patches import Rectangle
 
-from scanner.board import Board
+from scanner.board.model import Board
 from scanner.outputs import write_atomic
 from scanner.report import names, overlay, palette
 from scanner.report.copper import draw_copper, draw_outline, stroke_bounds
 from scanner.report.marks import (Finding, Mark, RoleTraces, composite_marks, has_geometric, layer_marks, layer_roles,
                                   layers_with_findings, role_segments, run_rows_on, shown_findings)
 from scanner.report.waveplot import finding_waveforms, wave_figure
-from scanner.score import Hotspot, ScanResult
+from scanner.scoring.results import Hotspot, ScanResult
 
 #: hotspots (by rank) that get a crop and a waveform plot
 DETAIL_TOP = 10

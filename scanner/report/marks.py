@@ -13,8 +13,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from scanner.board import Board, TraceSegments
-from scanner.score import STATUS_ORDER, Hotspot, ScanResult
+from scanner.board.model import Board, TraceSegments
+from scanner.scoring.results import STATUS_ORDER, Hotspot, ScanResult
 
 #: findings that pass their budgets are drawn only within this many top ranks
 PASS_SHOWN_TOP = 10

@@ -20,7 +20,7 @@ from matplotlib.lines import Line2D
 from matplotlib.patches import Patch
 from mpl_toolkits.axes_grid1.anchored_artists import AnchoredSizeBar
 
-from scanner.board import TraceSegments
+from scanner.board.model import TraceSegments
 from scanner.report import palette
 from scanner.report.copper import Window, stroke_collection
 from scanner.report.labels import place_labels

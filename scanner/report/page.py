@@ -14,7 +14,7 @@ from pathlib import Path
 from scanner.outputs import write_atomic
 from scanner.report import names, palette
 from scanner.report.marks import PASS_SHOWN_TOP, geometric_label, shown_findings
-from scanner.score import CAUTION, SCHEMA, Hotspot, ScanResult, VictimTotal
+from scanner.scoring.results import CAUTION, SCHEMA, Hotspot, ScanResult, VictimTotal
 
 PAGE_FILE = "report.html"
 TABLE_FILES = ("report.json", "hotspots.csv")

@@ -1,7 +1,7 @@
 """The terminal report: settings in force, a compact ranked table, a summary line."""
 from __future__ import annotations
 
-from scanner.score import CAUTION, ScanResult
+from scanner.scoring.results import CAUTION, ScanResult
 
 STATUS_MARK = {"fail": "FAIL", "warn": "warn", "pass": "ok"}
 

@@ -17,11 +17,11 @@ import numpy as np
 from matplotlib.backends.backend_agg import FigureCanvasAgg
 from matplotlib.figure import Figure
 
-from scanner.board import Board
+from scanner.board.model import Board
 from scanner.physics.crosstalk import piecewise_peaks, ramp_duration_s
 from scanner.report import palette
 from scanner.report.overlay import fit_line
-from scanner.score import Hotspot, ScanResult
+from scanner.scoring.results import Hotspot, ScanResult
 from scanner.rules import receiver_gain
 
 GRID_POINTS = 1200

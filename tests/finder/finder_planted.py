@@ -3,7 +3,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from scanner.board import TraceSegments
+from scanner.board.model import TraceSegments
 
 
 def segments(rows) -> TraceSegments:

@@ -13,8 +13,8 @@ from finder_planted import arc_rows, segments, transform
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from scanner.board import NO_NET
-from scanner.finder import find_coupled_pieces
+from scanner.board.model import NO_NET
+from scanner.coupling.finder import find_coupled_pieces
 
 W = 0.15  # trace width (mm)
 SEARCH = 0.5

@@ -5,8 +5,8 @@ import numpy as np
 import pytest
 from finder_planted import arc_rows, segments, transform
 
-from scanner.finder import find_coupled_pieces
-from scanner.runs import build_runs
+from scanner.coupling.finder import find_coupled_pieces
+from scanner.coupling.runs import build_runs
 
 W = 0.1
 

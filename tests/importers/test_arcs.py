@@ -3,7 +3,7 @@ import numpy as np
 import pytest
 import shapely
 
-from scanner.board import ARC_CHORD_TOLERANCE_MM
+from scanner.board.model import ARC_CHORD_TOLERANCE_MM
 from scanner.importers.arcs import arc_sweep, flatten_arcs, ring_points
 
 

@@ -3,7 +3,7 @@ import numpy as np
 import pytest
 import shapely
 
-from scanner.board import ARC_CHORD_TOLERANCE_MM
+from scanner.board.model import ARC_CHORD_TOLERANCE_MM
 from scanner.errors import InputError
 from scanner.importers.gerber_copper import read_copper
 

@@ -3,10 +3,10 @@ import numpy as np
 import pytest
 
 import scanner
-from scanner.board import NO_NET
+from scanner.board.model import NO_NET
 from scanner.errors import InputError
 from scanner.importers import registry
-from scanner.netmap import is_synthetic
+from scanner.board.netmap import is_synthetic
 
 from artwork import BOTTOM, NETLIST, TOP, assert_same_segments, ipc356_point, write_board
 

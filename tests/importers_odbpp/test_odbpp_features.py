@@ -10,7 +10,7 @@ import numpy as np
 import pytest
 import shapely
 
-from scanner.board import ARC_CHORD_TOLERANCE_MM
+from scanner.board.model import ARC_CHORD_TOLERANCE_MM
 from scanner.errors import InputError
 from scanner.importers.apertures import QUAD_SEGS
 from scanner.importers.odbpp.copper import layer_artwork

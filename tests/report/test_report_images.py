@@ -8,7 +8,7 @@ import numpy as np
 import shapely
 from click.testing import CliRunner
 
-from scanner.board import CopperLayer, CopperShapes, TraceSegments
+from scanner.board.model import CopperLayer, CopperShapes, TraceSegments
 from scanner.cli import cli
 from scanner.report import names, overlay, palette
 from scanner.report.copper import draw_copper

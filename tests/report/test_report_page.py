@@ -4,7 +4,7 @@ from dataclasses import replace
 from html.parser import HTMLParser
 
 from scanner.report.page import render_page
-from scanner.score import CAUTION
+from scanner.scoring.results import CAUTION
 
 VOID = {"img", "meta", "br"}
 

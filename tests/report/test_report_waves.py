@@ -5,9 +5,10 @@ from types import SimpleNamespace
 import numpy as np
 import pytest
 
-from scanner.finder import CoupledPieces
-from scanner.runs import build_runs
-from scanner.score import Hotspot, PieceCoefficients
+from scanner.coupling.finder import CoupledPieces
+from scanner.coupling.runs import build_runs
+from scanner.coupling.coefficients import PieceCoefficients
+from scanner.scoring.results import Hotspot
 from scanner.report.waveplot import ODD_MODE, finding_waveforms, wave_figure
 
 

@@ -1,7 +1,7 @@
 """Small boards built in code for scan tests: a 4-layer build with planted runs."""
 import numpy as np
 
-from scanner.board import (Board, CopperLayer, CopperShapes, Holes, Stackup, StackupLayer, TraceSegments)
+from scanner.board.model import (Board, CopperLayer, CopperShapes, Holes, Stackup, StackupLayer, TraceSegments)
 
 WIDTH = 0.15
 

@@ -2,7 +2,7 @@
 import numpy as np
 from hypothesis import given, settings, strategies as st
 
-from scanner.batch_peaks import run_peaks
+from scanner.scoring.peaks import run_peaks
 
 V = 1.5e8  # m/s, about er 4 (common practice: ~15 cm/ns in FR-4 stripline)
 

@@ -3,9 +3,9 @@ import numpy as np
 import pytest
 
 from scanner import scan
-from scanner.board import Board, CopperLayer, CopperShapes, Holes, Stackup, TraceSegments
-from scanner.finder import find_broadside_pieces
-from scanner.layerstack import broadside_environments, layer_environments
+from scanner.board.model import Board, CopperLayer, CopperShapes, Holes, Stackup, TraceSegments
+from scanner.coupling.finder import find_broadside_pieces
+from scanner.board.layerstack import broadside_environments, layer_environments
 from scanner.physics import CouplingTable
 from scanner.physics.broadside import BroadsideTable
 from scanner.rules import parse_rules

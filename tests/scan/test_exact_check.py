@@ -2,8 +2,8 @@
 import pytest
 
 from scanner import scan
-from scanner.exact_check import exact_peaks
-from scanner.layerstack import layer_environments
+from scanner.scoring.exact_check import exact_peaks
+from scanner.board.layerstack import layer_environments
 from scanner.rules import parse_rules
 from tests.scan.synthetic import WIDTH, board_from, four_layer_stackup, polyline
 

@@ -1,9 +1,9 @@
 """Signal-layer environments from a stackup."""
 import pytest
 
-from scanner.board import Board, CopperLayer, CopperShapes, Holes, TraceSegments
+from scanner.board.model import Board, CopperLayer, CopperShapes, Holes, TraceSegments
 from scanner.errors import InputError
-from scanner.layerstack import default_stackup, effective_stackup, layer_environments
+from scanner.board.layerstack import default_stackup, effective_stackup, layer_environments
 from tests.scan.synthetic import stackup_of
 
 

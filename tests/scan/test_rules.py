@@ -2,7 +2,8 @@
 import pytest
 
 from scanner.errors import InputError
-from scanner.rules import Rules, assign_roles, load_rules, parse_rules
+from scanner.board.roles import assign_roles
+from scanner.rules import Rules, load_rules, parse_rules
 
 GOOD = """
 [scan]

@@ -124,7 +124,7 @@ def test_victim_totals_sum_all_aggressors():
     # a third line beside FAST_B on the other side: FAST_B now has two aggressors
     seg = b.layers[0].segments
     extra = np.array([[0, 2 * (WIDTH + 0.2), 100, 2 * (WIDTH + 0.2), WIDTH, N["SLOW_X"]]])
-    from scanner.board import TraceSegments
+    from scanner.board.model import TraceSegments
     b.layers[0].segments = TraceSegments.concat([seg, TraceSegments(*extra.T)])
     r = scan(b, RULES)
     v = next(v for v in r.victims if v.net == "FAST_B")

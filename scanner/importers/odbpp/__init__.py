@@ -10,7 +10,7 @@ import re
 import tempfile
 from pathlib import Path
 
-from scanner.board import Board
+from scanner.board.model import Board
 from scanner.errors import InputError
 from scanner.importers.boardfile import BOARD_FILE_NAME, read_board_file
 from scanner.importers.odbpp.archive import extract_job_archive, is_job_archive

@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from scanner.board import NO_NET, Holes
+from scanner.board.model import NO_NET, Holes
 from scanner.importers.excellon import plating_from_name
 from scanner.importers.odbpp.copper import draw_pieces
 from scanner.importers.odbpp.features import FeatureTable

@@ -4,7 +4,7 @@ from __future__ import annotations
 import numpy as np
 import shapely
 
-from scanner.board import NO_NET, Board, CopperLayer, CopperShapes, Holes, TraceSegments
+from scanner.board.model import NO_NET, Board, CopperLayer, CopperShapes, Holes, TraceSegments
 from scanner.errors import InputError
 from scanner.importers.odbpp.copper import LayerArtwork, feature_image, layer_artwork
 from scanner.importers.odbpp.drills import drill_holes
@@ -14,7 +14,7 @@ from scanner.importers.odbpp.job import Job, SymbolLibrary
 from scanner.importers.odbpp.matrix import COPPER_KINDS, MatrixLayer
 from scanner.importers.odbpp.stackup import read_stackup
 from scanner.importers.planes import classify_planes
-from scanner.netmap import assign_nets
+from scanner.board.netmap import assign_nets
 
 FORMAT = "odbpp"
 #: ``CopperLayer.kind_source`` for kinds read from the matrix layer type

@@ -16,7 +16,7 @@ from __future__ import annotations
 
 from typing import Callable
 
-from scanner.board import Stackup, StackupLayer
+from scanner.board.model import Stackup, StackupLayer
 from scanner.errors import InputError
 from scanner.importers.odbpp.matrix import Matrix, MatrixLayer
 from scanner.importers.odbpp.text import JobFile, read_structured

@@ -9,7 +9,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from scanner.errors import InputError
-from scanner.limits import read_input
+from scanner.input_limits import read_input
 from scanner.units import MM_PER_INCH, MM_PER_MIL
 
 #: ODB++ units words and the millimetres per coordinate unit and per symbol-size unit

@@ -16,6 +16,11 @@ CAUTION = ("Crosstalk figures are engineering estimates from a quasi-static, los
 STATUS_ORDER = {"fail": 0, "warn": 1, "pass": 2}
 
 
+def rounded(x, digits: int = 3) -> float:
+    """A report figure: a plain float rounded to ``digits`` decimals."""
+    return round(float(x), digits)
+
+
 def status_for(fraction: float, warn_fraction: float) -> str:
     """pass / warn / fail from the fraction of budget used."""
     if fraction > 1.0:
@@ -94,15 +99,6 @@ class VictimTotal:
         return asdict(self)
 
 
-@dataclass(frozen=True)
-class PieceCoefficients:
-    """Per coupled piece: backward coefficient, forward coefficient (s/m), velocity (m/s)."""
-
-    kb: object
-    kf_s_per_m: object
-    velocity_m_per_s: object
-
-
 @dataclass
 class ScanResult:
     """Everything a report needs; ``to_dict`` is report.json."""
@@ -113,9 +109,9 @@ class ScanResult:
     settings: dict
     hotspots: list[Hotspot]
     victims: list[VictimTotal]
-    geometric: list = field(default_factory=list)  # scanner.geometric.GeometricFinding
+    geometric: list = field(default_factory=list)  # scanner.scoring.class_limits.GeometricFinding
     warnings: list[str] = field(default_factory=list)
-    runs: object = None  # scanner.runs.CoupledRuns, for overlays and waveforms
+    runs: object = None  # scanner.coupling.runs.CoupledRuns, for overlays and waveforms
     piece_coefficients: object = None  # PieceCoefficients aligned with runs.pieces
     summary: dict = field(default_factory=dict)
 

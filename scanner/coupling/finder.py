@@ -40,7 +40,7 @@ from typing import Mapping
 import numpy as np
 import shapely
 
-from scanner.board import NO_NET, TraceSegments
+from scanner.board.model import NO_NET, TraceSegments
 
 #: facing lengths and trims shorter than this are treated as zero (mm)
 LENGTH_EPS_MM = 1e-6

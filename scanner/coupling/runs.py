@@ -20,7 +20,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from scanner.finder import CoupledPieces, previous_interval_end
+from scanner.coupling.finder import CoupledPieces, previous_interval_end
 
 
 @dataclass(frozen=True)

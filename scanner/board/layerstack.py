@@ -11,7 +11,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-from scanner.board import Board, Stackup, StackupLayer
+from scanner.board.model import Board, Stackup, StackupLayer
 from scanner.errors import InputError
 
 #: stated default when nothing gives a stackup (typical FR-4 class build; common practice)
@@ -78,6 +78,34 @@ def effective_stackup(board: Board, override: Stackup | None) -> tuple[Stackup, 
         raise InputError(
             f"stackup ({stackup.source}) has {n_copper} copper layers but the board has {len(board.layers)}")
     return stackup, warnings
+
+
+@dataclass(frozen=True)
+class BoardEnvironments:
+    """The stackup in use and the role of each copper layer.
+
+    ``signal``: cross-section environment of every signal layer that will be scanned;
+    ``broadside``: dual-stripline layer pairs; ``warnings``: what was assumed or left out.
+    """
+
+    stackup: Stackup
+    plane_layers: frozenset[int]
+    signal: dict[int, LayerEnvironment]
+    broadside: dict[tuple[int, int], BroadsideEnvironment]
+    warnings: tuple[str, ...]
+
+
+def board_environments(board: Board, stackup_override: Stackup | None, named_planes=()) -> BoardEnvironments:
+    """Stackup, plane layers (from the board, plus any the rules name) and each signal layer's environment."""
+    plane_layers = frozenset(layer.index for layer in board.layers
+                             if layer.kind == "plane" or layer.name in named_planes)
+    stackup, warnings = effective_stackup(board, stackup_override)
+    envs = layer_environments(board, stackup, plane_layers)
+    for layer in board.layers:
+        if layer.index not in plane_layers and layer.index not in envs and len(layer.segments):
+            warnings.append(f"layer {layer.name} has no reference plane on either side; not scanned")
+    broadside = broadside_environments(board, stackup, envs, plane_layers)
+    return BoardEnvironments(stackup, plane_layers, envs, broadside, tuple(warnings))
 
 
 def layer_environments(board: Board, stackup: Stackup, plane_layers: set[int]) -> dict[int, LayerEnvironment]:

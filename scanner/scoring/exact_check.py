@@ -13,7 +13,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from scanner.coefficients import TABLE_MIN_SPACING_MM, section_arguments
+from scanner.coupling.coefficients import TABLE_MIN_SPACING_MM, section_arguments
 from scanner.physics import LineSection, simulate_coupled_lines, solve_cross_section, traces_on_layer
 
 #: how many strong-coupling findings (worst first) get the exact simulation

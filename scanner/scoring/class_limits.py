@@ -13,8 +13,9 @@ from dataclasses import dataclass, asdict
 
 import numpy as np
 
-from scanner.rules import NetRoles, Rules
-from scanner.runs import CoupledRuns
+from scanner.board.roles import NetRoles
+from scanner.rules import Rules
+from scanner.coupling.runs import CoupledRuns
 
 
 @dataclass(frozen=True)

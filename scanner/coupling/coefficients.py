@@ -15,7 +15,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from scanner.layerstack import BroadsideEnvironment, LayerEnvironment
+from scanner.board.layerstack import BroadsideEnvironment, LayerEnvironment
 from scanner.physics import CouplingTable
 from scanner.physics.broadside import BroadsideTable
 
@@ -27,6 +27,15 @@ TABLE_REACH_HEIGHTS = 10.0
 TABLE_POINTS = 9
 #: widths within this fraction of a rung are taken as on it
 ON_RUNG = 1e-6
+
+
+@dataclass(frozen=True)
+class PieceCoefficients:
+    """Per coupled piece: backward coefficient, forward coefficient (s/m), velocity (m/s)."""
+
+    kb: object
+    kf_s_per_m: object
+    velocity_m_per_s: object
 
 
 @dataclass(frozen=True)

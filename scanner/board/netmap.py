@@ -15,7 +15,7 @@ import shapely
 from scipy.sparse import coo_matrix
 from scipy.sparse.csgraph import connected_components
 
-from scanner.board import NO_NET, Board, CopperLayer, Holes, NetFault, Netting
+from scanner.board.model import NO_NET, Board, CopperLayer, Holes, NetFault, Netting
 
 #: synthetic names look like ``~L03@12.345,67.890`` (layer number, x, y in mm)
 SYNTHETIC_PREFIX = "~"

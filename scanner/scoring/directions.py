@@ -9,9 +9,10 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from scanner.batch_peaks import run_peaks
-from scanner.rules import NetClass, NetRoles, Rules
-from scanner.runs import CoupledRuns
+from scanner.scoring.peaks import run_peaks
+from scanner.board.roles import NetRoles
+from scanner.rules import NetClass, Rules
+from scanner.coupling.runs import CoupledRuns
 
 #: a 10-90 % rise time is 80 % of the linear ramp's full duration
 RAMP_PER_RISE = 1 / 0.8

@@ -18,8 +18,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from scanner.coefficients import TABLE_MIN_SPACING_MM, CouplingLookup
-from scanner.directed import DirectedRuns, directed_noise as noise
+from scanner.coupling.coefficients import TABLE_MIN_SPACING_MM, CouplingLookup
+from scanner.scoring.directions import DirectedRuns, directed_noise as noise
 
 #: steps halve the log-interval: 14 steps bring 0.02-3 mm (spacing) to 0.03 % and 1e-4-50 (length factor) to 0.08 %
 BISECTION_STEPS = 14
