@@ -110,6 +110,7 @@ class CopperLayer:
     segments: TraceSegments
     shapes: CopperShapes
     fill_ratio: float | None = None
+    kind_evidence: str = ""  # in words, why the layer is a plane or a signal layer (shown by inspect)
 
     @property
     def trace_length_mm(self) -> float:
@@ -218,6 +219,16 @@ class Netting:
         return [f for f in self.faults if f.kind == "open"]
 
 
+@dataclass(frozen=True)
+class LeftOut:
+    """Copper left out of nets and of the search because it lies outside the board (film frames,
+    title blocks, text, tooling marks, coupons)."""
+
+    objects: int = 0
+    trace_length_mm: float = 0.0
+    layers: tuple[str, ...] = ()
+
+
 @dataclass
 class Board:
     name: str
@@ -231,6 +242,10 @@ class Board:
     outline: object | None = None  # shapely geometry of the board outline when known
     netlist: NetlistPoints | None = None
     warnings: list[str] = field(default_factory=list)
+    left_out: LeftOut = field(default_factory=LeftOut)
+    #: what the import could not establish in full (an unreadable drill file that split nets, a netlist
+    #: matching under half its points, ...): each reason makes the scan's verdict incomplete
+    incomplete: list[str] = field(default_factory=list)
 
     def net_id(self, name: str) -> int:
         try:
