@@ -9,9 +9,8 @@ import click
 
 from scanner import load_board, scan
 from scanner.errors import InputError
-from scanner.report.files import write_tables, report_json
-from scanner.report.images import write_images
-from scanner.report.page import write_page
+from scanner.report.files import report_json
+from scanner.report.folder import write_report_folder
 from scanner.report.text import render
 from scanner.rules import load_rules
 
@@ -53,11 +52,7 @@ def command(board, rules_path, board_file, out_dir, top, as_json, no_images):
 
     if out_dir is not None:
         progress(f"writing reports to {out_dir}")
-        if not no_images:
-            write_images(result, the_board, out_dir)
-        write_tables(result, out_dir)
-        if not no_images:
-            write_page(result, out_dir)
+        write_report_folder(result, the_board, out_dir, images=not no_images)
     if as_json:
         click.echo(report_json(result), nl=False)
     else:
