@@ -7,12 +7,10 @@ from pathlib import Path
 
 import click
 
-from scanner import load_board, scan
-from scanner.errors import InputError
 from scanner.report.files import report_json
-from scanner.report.folder import write_report_folder
 from scanner.report.text import render
 from scanner.rules import load_rules
+from scanner.scan_job import scan_board
 
 
 @click.command("scan")
@@ -42,17 +40,9 @@ def command(board, rules_path, board_file, out_dir, top, as_json, no_images):
         if show_progress:
             click.echo(f"[{time.perf_counter() - started:6.1f} s] {msg}", err=True)
 
-    if out_dir is not None and board.is_dir() and out_dir.resolve() == board.resolve():
-        raise InputError("the output folder is the board folder: reports could overwrite input files "
-                         "(give a separate folder, or a subfolder)", path=out_dir)
     rules = load_rules(rules_path)
-    progress(f"reading {board}")
-    the_board = load_board(board, board_file=board_file)
-    result = scan(the_board, rules, progress=progress)
-
-    if out_dir is not None:
-        progress(f"writing reports to {out_dir}")
-        write_report_folder(result, the_board, out_dir, images=not no_images)
+    result, _ = scan_board(board, rules, out_dir=out_dir, board_file=board_file, images=not no_images,
+                           progress=progress)
     if as_json:
         click.echo(report_json(result), nl=False)
     else:

@@ -1,0 +1,40 @@
+"""A whole batch: jobs for the boards, run on the cluster, summary written."""
+from __future__ import annotations
+
+import time
+from datetime import datetime, timezone
+from pathlib import Path
+
+from scanner.batch.boards import BoardEntry
+from scanner.batch.engine import connect, run_jobs
+from scanner.batch.fingerprint import nearfar_version, rules_digest
+from scanner.batch.progress import Progress
+from scanner.batch.rows import BoardRow
+from scanner.batch.summary import write_summary
+from scanner.batch.task import BoardJob
+
+
+def run_batch(entries: list[BoardEntry], rules, rules_path: Path | None, out_dir: Path, *,
+              scheduler: str | None = None, workers: int | None = None, images: bool = True, force: bool = False,
+              progress_stream=None, live: bool = False) -> tuple[list[BoardRow], dict]:
+    """Scan every board (or reuse its unchanged report), write the summary into ``out_dir``;
+    returns the rows in finishing order and the run facts written with them."""
+    out_dir = out_dir.resolve()
+    out_dir.mkdir(parents=True, exist_ok=True)
+    started_utc = datetime.now(timezone.utc).isoformat(timespec="seconds")
+    began = time.perf_counter()
+    digest = rules_digest(rules_path)
+    jobs = [BoardJob(shown=e.shown, board=e.path, out_dir=out_dir, folder=e.folder, rules=rules,
+                     rules_digest=digest, images=images, force=force) for e in entries]
+    progress = Progress(len(jobs), progress_stream, live)
+    with connect(scheduler, workers) as cluster:
+        progress.tick()
+        try:
+            rows = run_jobs(cluster, jobs, progress)
+        finally:
+            progress.close()
+    run = {"nearfar": nearfar_version(), "rules": "defaults" if rules_path is None else str(rules_path),
+           "images": images, "cluster": cluster.description, "started_utc": started_utc,
+           "seconds": round(time.perf_counter() - began, 2)}
+    write_summary(rows, run, out_dir)
+    return rows, run
