@@ -48,9 +48,11 @@ def connect(scheduler: str | None, workers: int | None):
         n = workers or default_workers()
         # processes, not threads: a scan holds the GIL most of the time. No dashboard, and the scheduler's
         # small HTTP server on a free port rather than the usual one, which another cluster may hold.
+        # Dask's own log stays quiet (it reports, say, heartbeats lost while the cluster closes): what
+        # matters to the user comes back as the boards' rows.
         with LocalCluster(n_workers=n, threads_per_worker=1, processes=True, host="127.0.0.1",
                           dashboard_address=None, scheduler_kwargs={"dashboard_address": ":0"},
-                          silence_logs=logging.ERROR) as local, Client(local) as client:
+                          silence_logs=logging.CRITICAL) as local, Client(local) as client:
             yield Cluster(client, f"local cluster of {n} worker process{'es' * (n != 1)}", n)
         return
     try:

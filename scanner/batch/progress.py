@@ -20,6 +20,12 @@ class Progress:
         self.finished_folders: set[str] = set()
         self.verdicts = dict.fromkeys(VERDICTS, 0)
 
+    def show(self, text: str) -> None:
+        """A passing message (starting the cluster) until the counts replace it."""
+        if self.live:
+            self.stream.write(f"{_CLEAR_LINE}[{time.perf_counter() - self.began:6.1f} s] {text}")
+            self.stream.flush()
+
     def started(self, folder: str) -> None:
         if folder not in self.finished_folders:
             self.running.add(folder)

@@ -20,14 +20,15 @@ def run_batch(entries: list[BoardEntry], rules, rules_path: Path | None, out_dir
     """Scan every board (or reuse its unchanged report), write the summary into ``out_dir``;
     returns the rows in finishing order and the run facts written with them."""
     out_dir = out_dir.resolve()
-    out_dir.mkdir(parents=True, exist_ok=True)
     started_utc = datetime.now(timezone.utc).isoformat(timespec="seconds")
     began = time.perf_counter()
     digest = rules_digest(rules_path)
     jobs = [BoardJob(shown=e.shown, board=e.path, out_dir=out_dir, folder=e.folder, rules=rules,
                      rules_digest=digest, images=images, force=force) for e in entries]
     progress = Progress(len(jobs), progress_stream, live)
+    progress.show(f"connecting to {scheduler}" if scheduler else "starting the local cluster")
     with connect(scheduler, workers) as cluster:
+        out_dir.mkdir(parents=True, exist_ok=True)
         progress.tick()
         try:
             rows = run_jobs(cluster, jobs, progress)

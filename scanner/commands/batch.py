@@ -59,7 +59,7 @@ def _terminal_summary(rows, run, out_dir: Path) -> str:
     lines = [f"nearfar batch: {len(rows)} boards ({tally}) on {run['cluster']} in {run['seconds']:.1f} s"
              + (f"; {reused} unchanged since the last run" if reused else "")]
     header = ("verdict", "board", "worst victim", "used", "why")
-    table = [(r.verdict.upper() if r.verdict == "fail" else r.verdict, _trim(r.board, 40), _trim(r.worst_victim or "-", 18),
+    table = [(r.verdict.upper() if r.verdict == "fail" else r.verdict, _trim_start(r.board, 40), _trim(r.worst_victim or "-", 18),
               "-" if r.worst_budget_used is None else f"{100 * r.worst_budget_used:.0f}%", _trim(r.reason, 70))
              for r in worst_first(rows)[:SHOWN_ROWS]]
     widths = [max(len(row[i]) for row in table + [header]) for i in range(len(header))]
@@ -75,3 +75,9 @@ def _terminal_summary(rows, run, out_dir: Path) -> str:
 def _trim(text: str, width: int) -> str:
     text = printable(text)
     return text if len(text) <= width else text[: width - 1] + "…"
+
+
+def _trim_start(text: str, width: int) -> str:
+    """Long paths lose their start: the end names the board."""
+    text = printable(text)
+    return text if len(text) <= width else "…" + text[-(width - 1):]

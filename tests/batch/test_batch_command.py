@@ -238,3 +238,4 @@ def test_unreachable_scheduler_is_bad_input(monkeypatch, capsys, tmp_path):
     monkeypatch.setattr(engine, "CONNECT_TIMEOUT_S", 1)
     code, _, err = run(["batch", "x", "--scheduler", "tcp://127.0.0.1:9", "--out", str(tmp_path / "out")], capsys)
     assert code == 2 and "tcp://127.0.0.1:9" in err and len(err.strip().splitlines()) == 1
+    assert not (tmp_path / "out").exists()
