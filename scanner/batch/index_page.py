@@ -37,13 +37,17 @@ a {{ color: {palette.VICTIM}; }}
 table {{ border-collapse: collapse; font-size: 0.85rem; margin: 0.8rem 0 1rem; }}
 th, td {{ border-bottom: 1px solid #e6e1d7; padding: 0.3rem 0.55rem; text-align: left; vertical-align: top; }}
 th {{ background: {palette.BOARD_FILL}; position: sticky; top: 0; }}
-td.num, th.num {{ text-align: right; font-variant-numeric: tabular-nums; white-space: nowrap; }}
+td.num, th.num {{ text-align: right; font-variant-numeric: tabular-nums; }}
+td.num {{ white-space: nowrap; }}
 .verdict {{ display: inline-block; border-radius: 0.25rem; padding: 0 0.45rem; font-weight: 600; font-size: 0.78rem; }}
 .meter {{ display: inline-block; position: relative; width: 6rem; height: 0.55rem; background: {palette.BOARD_FILL};
   border: 1px solid #d8d1c4; vertical-align: middle; margin-left: 0.4rem; }}
 .meter span {{ position: absolute; left: 0; top: 0; bottom: 0; }}
 .meter i {{ position: absolute; left: {100 / BAR_SPAN:g}%; top: -2px; bottom: -2px; border-left: 1px solid {palette.INK}; }}
 .reused {{ color: #6b6357; font-size: 0.74rem; }}
+table.boards {{ width: 100%; }}
+table.boards td:nth-child(3) {{ min-width: 12rem; max-width: 20rem; overflow-wrap: anywhere; }}
+table.boards td:nth-child(9) {{ min-width: 16rem; overflow-wrap: anywhere; }}
 {verdicts}
 """
 
@@ -75,8 +79,8 @@ def _rows(boards: list[dict]) -> Markup:
         body.append([i, tag("span", r["verdict"], class_=f"verdict v-{r['verdict']}"), _board_cell(r), coverage,
                      "–" if r["victims_fail"] is None else r["victims_fail"], r["worst_victim"] or "–", _used(r),
                      seconds, r["reason"]])
-    return table(["#", "verdict", "board", "signal traces scanned", "victims over budget", "worst victim",
-                  "its budget used", "seconds", "why"], body, numeric={0, 3, 4, 6, 7},
+    return table(["#", "verdict", "board", "traces scanned", "victims over", "worst victim", "its budget used",
+                  "seconds", "why"], body, class_="boards", numeric={0, 3, 4, 6, 7},
                  row_classes=[f"row-{r['verdict']}" for r in boards])
 
 
@@ -93,6 +97,9 @@ def render_index(summary: dict, out_dir: Path, data_files: tuple[str, ...]) -> s
             + tag("p", [tag("strong", "Caution. "), summary["caution"]], class_="caution")
             + tag("p", facts, class_="muted")
             + (tag("p", ["Data: ", Markup(", ".join(data))], class_="muted") if data else Markup(""))
+            + tag("p", "Traces scanned: share of the signal trace length the scan reached. Victims over: victims "
+                       "over budget. Its budget used: the worst victim's noise as a share of its budget; the tick "
+                       f"marks the whole budget, the bar ends at {BAR_SPAN:g} times it.", class_="muted")
             + tag("div", _rows(boards), style="overflow-x: auto")
             + tag("footer", f"nearfar {summary['nearfar']}; data schema {summary['schema']}.", class_="muted"))
     head = Markup(tag("meta", charset="utf-8") + tag("meta", name="viewport", content="width=device-width, initial-scale=1")
