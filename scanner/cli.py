@@ -9,7 +9,7 @@ import click
 from scanner.errors import InputError, printable
 
 #: subcommands, each a module in scanner.commands exposing a click command named ``command``
-COMMAND_MODULES = ("inspect", "section", "scan")
+COMMAND_MODULES = ("inspect", "section", "scan", "stackup")
 
 
 @click.group(context_settings={"help_option_names": ["-h", "--help"]})
