@@ -132,8 +132,8 @@ def effective_stackup(board: Board, override: Stackup | None) -> tuple[Stackup, 
     if stackup is None:
         stackup = default_stackup(len(board.layers))
         warnings.append(
-            f"NO STACKUP GIVEN: assumed a typical symmetric build, {describe_default(len(board.layers))}; crosstalk and "
-            "impedance figures depend on it - give the real one with --stackup FILE (CSV or TOML) or [stackup] "
+            f"NO STACKUP GIVEN: assumed a typical symmetric build, {describe_default(len(board.layers))}; "
+            "crosstalk and impedance figures depend on it - give the real one with --stackup FILE (CSV or TOML) or [stackup] "
             "in the rules, and check it with 'nearfar stackup'")
     n_copper = len(stackup.copper())
     if n_copper != len(board.layers):

@@ -19,8 +19,9 @@ CAUTION = ("Impedances are quasi-static field-solver estimates for the stackup s
            "fabricator's impedance table: a clear mismatch means the stackup given is not the one built. Confirm "
            "critical lines by measurement (impedance coupons) and follow your organisation's own sign-off practice.")
 
-SOURCE_WORDS = {"job-file": "the Gerber job file", "odbpp-job": "the ODB++ job", "rules": "the rules file",
-                "stackup-file": "the stackup file", "board-file": "the board file", "default": "ASSUMED"}
+SOURCE_WORDS = {"job-file": "from the Gerber job file", "odbpp-job": "from the ODB++ job",
+                "rules": "from the rules file", "stackup-file": "from the stackup file",
+                "board-file": "from the board file", "default": "ASSUMED, none given"}
 #: drawing: rows per dielectric grow with its thickness, one per this many mm, at most DRAW_MAX_ROWS
 DRAW_MM_PER_ROW = 0.15
 DRAW_MAX_ROWS = 4
@@ -47,7 +48,7 @@ def stackup_data(board: Board, env: BoardEnvironments, rows: list[SignalLayerRow
 
 def _source_text(stack: dict) -> str:
     words = SOURCE_WORDS.get(stack["source"], stack["source"])
-    return f"{words} ({stack['path']})" if stack["path"] else words
+    return f"{words} {stack['path']}" if stack["path"] else words
 
 
 def _drawing(data: dict) -> list[str]:
@@ -85,8 +86,9 @@ def _num(value, fmt: str) -> str:
 
 def render_stackup(data: dict) -> str:
     stack = data["stackup"]
-    out = [f"stackup of {data['board']}: from {_source_text(stack)}, {len([i for i in stack['layers'] if i['kind'] == 'copper'])} "
-           f"copper layers, {stack['total_thickness_mm']:.3f} mm", ""]
+    copper = sum(item["kind"] == "copper" for item in stack["layers"])
+    out = [f"stackup of {data['board']} ({_source_text(stack)}): {copper} copper layers, "
+           f"{stack['total_thickness_mm']:.3f} mm", ""]
     if stack["assumed"]:
         out += ["!" * 78] + [f"warning: {w}" for w in data["warnings"] if w.startswith("NO STACKUP")] + ["!" * 78, ""]
     out += _drawing(data)

@@ -52,7 +52,8 @@ from scanner.physics.solver import TOLERANCE, solve_cross_section
 
 __all__ = [
     "Conductor", "CrossSection", "Dielectric", "Soldermask", "traces_on_layer",
-    "LineMatrices", "solve_cross_section", "trace_impedance", "differential_impedance", "DifferentialTable", "MeshSettings", "DEFAULT_MESH", "TOLERANCE",
+    "LineMatrices", "solve_cross_section", "MeshSettings", "DEFAULT_MESH", "TOLERANCE",
+    "trace_impedance", "differential_impedance", "DifferentialTable",
     "coupling_coefficients", "CouplingTable", "weak_coupling_holds", "WEAK_COUPLING_LIMIT",
     "near_end_peak", "far_end_peak", "piecewise_peaks", "saturation_length_m", "ramp_duration_s", "VictimNoise",
     "near_end_waveform", "far_end_waveform",

@@ -435,7 +435,8 @@ def render_page(result: ScanResult, out_dir: str | Path) -> str:
     """The page's HTML; links only to files that exist in ``out_dir``."""
     folder = _Folder(Path(out_dir))
     body = (_header(result, folder) + _board(result) + _rules(result) + _maps(result, folder)
-            + _findings(result, folder) + _geometric(result, folder) + _impedance(result) + _details(result, folder) + _victims(result.victims) + _assumptions(result)
+            + _findings(result, folder) + _geometric(result, folder) + _impedance(result) + _details(result, folder)
+            + _victims(result.victims) + _assumptions(result)
             + tag("footer", f"nearfar {_version()}; data schema {SCHEMA}.", class_="muted"))
     head = Markup(tag("meta", charset="utf-8") + tag("meta", name="viewport", content="width=device-width, initial-scale=1")
                   + tag("title", f"Crosstalk report: {result.board.get('name', '')}") + tag("style", Markup(_style())))

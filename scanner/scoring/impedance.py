@@ -178,7 +178,8 @@ def _class_pair_pieces(board: Board, roles: NetRoles, env: BoardEnvironments, pa
     keys = np.c_[pairs.layer[rows], width[rows]]
     for key in np.unique(keys, axis=0):
         layer, w = int(key[0]), float(key[1])
-        table = _cached(tables, (layer, w), lambda: DifferentialTable.for_layer(w, **section_arguments(env.signal[layer])))
+        table = _cached(tables, (layer, w),
+                        lambda: DifferentialTable.for_layer(w, **section_arguments(env.signal[layer])))
         on = np.all(keys == key, axis=1)
         z[on] = table(pairs.spacing_mean_mm[rows[on]])
     return _Elements(pairs.layer[rows], positive[rows], pairs.x0_mm[rows], pairs.y0_mm[rows], pairs.x1_mm[rows],

@@ -134,7 +134,8 @@ class ScanResult:
 
     @property
     def verdict(self) -> str:
-        """fail (some victim or limit over budget, or a stretch off its impedance target), incomplete (nothing over, but not all checked), pass."""
+        """fail (some victim or limit over budget, or a stretch off its impedance target), incomplete (nothing
+        over, but not all checked), pass."""
         if self.worst_status == "fail":
             return "fail"
         return "incomplete" if self.unchecked else "pass"
