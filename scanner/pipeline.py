@@ -36,7 +36,8 @@ def run_scan(board: Board, rules: Rules | None = None, progress: Progress | None
     scored = score_runs(board, rules, roles, env, coupled)
     pairs = pair_pieces(board, env.signal, roles.partner)
     impedance = check_impedance(board, rules, roles, env, pairs)
-    return build_result(board, rules, env, coupled, scored, list(env.warnings) + list(board.warnings),
+    return build_result(board, rules, env, coupled, scored,
+                        list(env.warnings) + list(board.warnings) + impedance.notes,
                         signal_layer_table(board, env, pairs), impedance)
 
 

@@ -77,7 +77,8 @@ def pair_pieces(board: Board, layers, partner: np.ndarray) -> CoupledPieces:
 def most_used_gap(pieces: CoupledPieces, layer: int, max_gap_mm: float) -> tuple[float, float] | None:
     """(gap, width) in mm carrying the most pair length on ``layer`` among gaps up to ``max_gap_mm``;
     None without such pair pieces there."""
-    on = (pieces.layer == layer) & (pieces.spacing_mean_mm <= max_gap_mm)
+    on = ((pieces.layer == layer) & (pieces.spacing_mean_mm > 0) & (pieces.spacing_mean_mm <= max_gap_mm)
+          & (pieces.width_a_mm + pieces.width_b_mm > 0))
     if not on.any():
         return None
     gap = np.round(pieces.spacing_mean_mm[on] / GAP_GRID_MM) * GAP_GRID_MM
@@ -105,14 +106,12 @@ def signal_layer_table(board: Board, env: BoardEnvironments, pairs: CoupledPiece
         width = widths.get(layer.index)
         found = most_used_gap(pairs, layer.index, PAIR_GAP_LIMIT * max(e.height_mm, width or 0.0))
         pair_width, gap, source = (found[1], found[0], GAP_FROM_PAIRS) if found else (width, width, GAP_ASSUMED)
-        if found and gap <= 0:
-            pair_width = gap = None
         rows.append(SignalLayerRow(
             layer.name, layer.index, "dual stripline" if layer.index in dual else e.structure,
             _references(board, env, layer.index), e.height_mm,
             sum(t for t, _ in e.away) if args["planes"] == "both" else None, e.trace_thickness_mm,
             width, None if width is None else trace_impedance(width, **args),
-            pair_width, gap, source if gap is not None else None,
+            pair_width, gap, None if gap is None else source,
             None if gap is None else differential_impedance(pair_width, gap, **args)))
     return rows
 

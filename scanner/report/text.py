@@ -20,7 +20,7 @@ def render(result: ScanResult, top: int = 20) -> str:
              f"parallel within {s['angle_tolerance_deg']}°",
              "net classes (aggressor edge; victim budgets and termination):"]
     lines += [f"  {c['name']:<14} {', '.join(c['patterns'])[:40]:<40} tr {c['rise_time_ns']:g} ns, {c['swing_v']:g} V; "
-              f"NEXT ≤ {_budget(c, 'next')}, FEXT ≤ {_budget(c, 'fext')}; {c['termination']}"
+              f"NEXT ≤ {_budget(c, 'next')}, FEXT ≤ {_budget(c, 'fext')}; {c['termination']}{_targets(c)}"
               for c in result.rules["classes"] + [result.rules["default_class"]]]
     if result.stackup["source"] == "default":
         lines.append("!" * 78)
@@ -82,8 +82,14 @@ def _budget(c: dict, kind: str) -> str:
 
 
 
+def _targets(c: dict) -> str:
+    parts = [f"{label} {c[key]:g} ohm" for label, key in (("Z0", "z0_target_ohm"), ("Zdiff", "zdiff_target_ohm"))
+             if c.get(key) is not None]
+    return f"; {' / '.join(parts)} ±{c['impedance_tolerance_pct']:g}%" if parts else ""
+
+
 def _path(stackup: dict) -> str:
-    return f" ({stackup['path']})" if stackup.get("path") and stackup["source"] in ("stackup-file",) else ""
+    return f" ({stackup['path']})" if stackup.get("path") and stackup["source"] == "stackup-file" else ""
 
 
 def _impedance_lines(check, top: int) -> list[str]:

@@ -85,9 +85,26 @@ class ClassImpedance:
 
 @dataclass(frozen=True)
 class ImpedanceCheck:
+    """The check's result: per class what was checked, and the stretches off target (worst first)."""
+
     classes: list[ClassImpedance]
     stretches: list[ImpedanceStretch]
     min_length_mm: float
+
+    @property
+    def notes(self) -> list[str]:
+        """Targets that found nothing to check, and routing left unchecked (for the scan's warnings)."""
+        out = []
+        for c in self.classes:
+            if c.z0_target_ohm is not None and c.checked_mm == 0:
+                out.append(f"impedance: class {c.net_class} has a Z0 target but no traces on a scanned layer")
+            if c.zdiff_target_ohm is not None and c.pair_checked_mm == 0:
+                out.append(f"impedance: class {c.net_class} has a differential target but no pair of its nets "
+                           "runs side by side on a scanned layer")
+            if c.not_checked_mm > 0:
+                out.append(f"impedance: {c.not_checked_mm:g} mm of class {c.net_class} traces lie on layers "
+                           "that were not scanned and were not checked")
+        return out
 
     def to_dict(self) -> dict:
         return {"min_length_mm": self.min_length_mm, "classes": [c.to_dict() for c in self.classes],
@@ -120,21 +137,22 @@ def check_impedance(board: Board, rules: Rules, roles: NetRoles, env: BoardEnvir
     for k, cls in enumerate(roles.classes):
         if not cls.has_impedance_target:
             continue
-        found: list[ImpedanceStretch] = []
-        short = [0, 0.0]
         checked = pair_checked = not_checked = 0.0
+        parts = []
         if cls.z0_target_ohm is not None:
             elements, not_checked = _class_segments(board, roles, env, k, z0_cache)
             checked = float(elements.length.sum())
-            found += _stretches(board, roles, cls, elements, cls.z0_target_ohm, "single-ended", min_mm, short)
+            parts.append(_stretches(board, roles, cls, elements, cls.z0_target_ohm, "single-ended", min_mm))
         if cls.zdiff_target_ohm is not None:
             elements = _class_pair_pieces(board, roles, env, pairs, k, diff_tables)
             pair_checked = float(elements.length.sum())
-            found += _stretches(board, roles, cls, elements, cls.zdiff_target_ohm, "differential", min_mm, short)
+            parts.append(_stretches(board, roles, cls, elements, cls.zdiff_target_ohm, "differential", min_mm))
+        found = [s for listed, _, _ in parts for s in listed]
         classes.append(ClassImpedance(cls.name, cls.z0_target_ohm, cls.zdiff_target_ohm, cls.impedance_tolerance_pct,
                                       rounded(checked, 1), rounded(pair_checked, 1),
-                                      rounded(sum(s.length_mm for s in found), 1), len(found), short[0],
-                                      rounded(short[1], 1), rounded(not_checked, 1)))
+                                      rounded(sum(s.length_mm for s in found), 1), len(found),
+                                      sum(p[1] for p in parts), rounded(sum(p[2] for p in parts), 1),
+                                      rounded(not_checked, 1)))
         stretches += found
     stretches.sort(key=lambda s: (-abs(s.deviation_pct) * s.length_mm, s.net_class, s.net))
     return ImpedanceCheck(classes, stretches, min_mm)
@@ -149,14 +167,15 @@ def _class_segments(board: Board, roles: NetRoles, env: BoardEnvironments, k: in
         if layer.index in env.plane_layers or not len(seg):
             continue
         net = np.maximum(seg.net, 0)
-        mine = (seg.net != NO_NET) & (roles.class_index[net] == k) & roles.active[net] & (seg.length_mm > 0)
+        width = np.round(seg.width / WIDTH_GRID_MM) * WIDTH_GRID_MM
+        mine = ((seg.net != NO_NET) & (roles.class_index[net] == k) & roles.active[net] & (seg.length_mm > 0)
+                & (width > 0))
         if layer.index not in env.signal:
             not_checked += float(seg.length_mm[mine].sum())
             continue
         rows = np.flatnonzero(mine)
-        width = np.round(seg.width[rows] / WIDTH_GRID_MM) * WIDTH_GRID_MM
         args = section_arguments(env.signal[layer.index])
-        unique, inverse = np.unique(width, return_inverse=True)
+        unique, inverse = np.unique(width[rows], return_inverse=True)
         z = np.array([_cached(cache, (layer.index, float(w)), lambda w=w: trace_impedance(float(w), **args))
                       for w in unique])
         parts.append(_Elements(np.full(len(rows), layer.index), seg.net[rows], seg.x0[rows], seg.y0[rows],
@@ -173,7 +192,7 @@ def _class_pair_pieces(board: Board, roles: NetRoles, env: BoardEnvironments, pa
     height = np.zeros(len(board.layers))
     height[list(env.signal)] = [e.height_mm for e in env.signal.values()]
     limit = PAIR_GAP_LIMIT * np.maximum(height[pairs.layer], width)
-    rows = np.flatnonzero((roles.class_index[positive] == k) & (pairs.spacing_mean_mm <= limit))
+    rows = np.flatnonzero((roles.class_index[positive] == k) & (pairs.spacing_mean_mm <= limit) & (width > 0))
     z = np.zeros(len(rows))
     keys = np.c_[pairs.layer[rows], width[rows]]
     for key in np.unique(keys, axis=0):
@@ -201,18 +220,17 @@ def _concat(parts: list[_Elements]) -> _Elements:
 
 
 def _stretches(board: Board, roles: NetRoles, cls: NetClass, e: _Elements, target: float, kind: str,
-               min_mm: float, short: list) -> list[ImpedanceStretch]:
-    """Elements outside ``target`` joined into stretches; those under ``min_mm`` only counted in ``short``."""
+               min_mm: float) -> tuple[list[ImpedanceStretch], int, float]:
+    """Elements outside ``target`` joined into stretches: (those at least ``min_mm`` long, count and length of
+    the shorter ones)."""
     tol = cls.impedance_tolerance_pct / 100.0
     out = np.flatnonzero(np.abs(e.z - target) > tol * target)
     if not len(out):
-        return []
+        return [], 0, 0.0
     label = _components(e, out, PIECE_JOIN_MM if e.gap is not None else SEGMENT_JOIN_MM)
     count = int(label.max()) + 1
     length = np.bincount(label, weights=e.length[out], minlength=count)
     listed = length >= min_mm
-    short[0] += int((~listed).sum())
-    short[1] += float(length[~listed].sum())
     weight = e.length[out] / length[label]
     width = np.bincount(label, weights=weight * e.width[out], minlength=count)
     gap = None if e.gap is None else np.bincount(label, weights=weight * e.gap[out], minlength=count)
@@ -235,7 +253,7 @@ def _stretches(board: Board, roles: NetRoles, cls: NetClass, e: _Elements, targe
             cls.impedance_tolerance_pct, rounded(100.0 * (e.z[w] - target) / target, 1),
             rounded(0.5 * (e.x0[m] + e.x1[m]), 3), rounded(0.5 * (e.y0[m] + e.y1[m]), 3),
             [rounded(x_lo[c], 3), rounded(y_lo[c], 3), rounded(x_hi[c], 3), rounded(y_hi[c], 3)]))
-    return stretches
+    return stretches, int((~listed).sum()), float(length[~listed].sum())
 
 
 def _last_per_label(label: np.ndarray, value: np.ndarray, count: int) -> np.ndarray:

@@ -65,6 +65,7 @@ def test_planted_wrong_width_and_gap_are_found():
     assert fast.short_stretches == 1 and fast.short_mm == pytest.approx(0.5)  # the neck-down: counted, not listed
     assert fast.checked_mm == pytest.approx(140.0) and fast.stretches == 1 and fast.not_checked_mm == 0
     assert [c.net_class for c in check.classes] == ["fast", "pairs"]  # classes without targets are not checked
+    assert check.notes == []
 
     assert result.verdict == "fail" and result.exit_code == 1
     report = result.to_dict()
@@ -77,6 +78,13 @@ def test_a_wide_tolerance_passes_the_same_board():
     rules, _, _ = rules_with_targets(board, tolerance=60)
     result = scan(board, rules)
     assert result.impedance.stretches == [] and result.exit_code == 0
+
+
+def test_a_target_with_nothing_to_check_is_said():
+    rules = parse_rules({"class": [{"name": "ghost", "nets": ["NOPE*"], "z0_target_ohm": 50.0,
+                                    "zdiff_target_ohm": 100.0}]}, "test")
+    result = scan(planted_board(), rules)
+    assert sum("class ghost" in w for w in result.warnings) == 2
 
 
 def test_no_targets_no_check():
