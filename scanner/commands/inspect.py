@@ -8,7 +8,7 @@ from pathlib import Path
 import click
 
 from scanner import load_board
-from scanner.board.layerstack import effective_stackup
+from scanner.board.layerstack import describe_default, effective_stackup
 from scanner.board.model import Board
 from scanner.commands.options import stackup_option, stackup_override
 
@@ -36,6 +36,7 @@ def inspect_data(board: Board) -> dict:
             "copper_index": s.copper_index} for s in board.stackup.layers],
         "stackup_source": None if board.stackup is None else board.stackup.source,
         "stackup_path": None if board.stackup is None else board.stackup.path,
+        "stackup_assumed": describe_default(len(board.layers)) if board.stackup is None and board.layers else None,
         "netting": None if netting is None else {
             "method": netting.method,
             "netted_trace_fraction": round(netting.netted_trace_fraction, 6),
@@ -77,7 +78,8 @@ def render_inspect(data: dict) -> str:
                   "" if s["epsilon_r"] is None else f"{s['epsilon_r']:.2f}") for s in data["stackup"]]
         out += ["  " + line for line in _table(("material", "name", "thick mm", "eps_r"), srows, {2, 3})]
     else:
-        out += ["", "stackup: none in the files (give one with --stackup FILE or in the rules file)"]
+        out += ["", "stackup: none in the files; a scan assumes a typical build, "
+                    f"{data['stackup_assumed']} (give the real one with --stackup FILE or in the rules file)"]
     n = data["netting"]
     if n:
         out += ["", f"netting by {n['method']}: {100 * n['netted_trace_fraction']:.1f}% of trace length carries a "

@@ -418,8 +418,8 @@ def _assumptions(result: ScanResult) -> Markup:
                      "equations (sections solved with the field solver, resistive ends); those figures are shown as "
                      "'exact' beside the estimate.")
     if result.stackup.get("source") == "default":
-        items.insert(0, "No stackup came with the board or the rules: an assumed evenly spaced build was used, so "
-                        "every figure here is provisional.")
+        items.insert(0, "No stackup came with the board, a stackup file or the rules: a typical symmetric build was "
+                        "assumed (its values are in the warnings), so every figure here is provisional.")
     return Markup(tag("h2", "Assumptions", id="assumptions") + tag("ul", [tag("li", i) for i in items])
                   + tag("p", [tag("strong", "Caution. "), CAUTION], class_="caution"))
 

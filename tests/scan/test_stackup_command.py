@@ -138,6 +138,8 @@ def test_without_a_stackup_the_assumed_build_is_loud(tmp_path, capsys):
     code, out, _ = run(["scan", board, "--json"], capsys)
     assert json.loads(out)["stackup"]["source"] == "default"
     assert any("NO STACKUP GIVEN" in w for w in json.loads(out)["warnings"])
+    code, out, _ = run(["inspect", board, "--json"], capsys)
+    assert json.loads(out)["stackup_assumed"].startswith("6 copper layers in 1.6 mm")
 
 
 def skrf_microstrip_z0(w_mm, h_mm, t_mm, er):
