@@ -1,19 +1,22 @@
 """Findings: scored coupled runs, per-victim totals, budget checks and ranking.
 
 Plain result records and the JSON shape of ``report.json`` (schema
-``nearfar.report/1``, documented in docs/report-schema.md).
+``nearfar.report/2``, documented in docs/report-schema.md).
 """
 from __future__ import annotations
 
 from dataclasses import dataclass, field, asdict
 
-SCHEMA = "nearfar.report/1"
+SCHEMA = "nearfar.report/2"
 
 CAUTION = ("Crosstalk figures are engineering estimates from a quasi-static, lossless, weak-coupling model. "
            "Confirm critical nets by measurement or full-wave/circuit simulation, and follow your "
            "organisation's own sign-off practice.")
 
 STATUS_ORDER = {"fail": 0, "warn": 1, "pass": 2}
+
+#: exit status of a scan by verdict (2 bad input and 4 internal error come from the command line)
+EXIT_CODES = {"pass": 0, "fail": 1, "incomplete": 3}
 
 
 def rounded(x, digits: int = 3) -> float:
@@ -114,6 +117,10 @@ class ScanResult:
     runs: object = None  # scanner.coupling.runs.CoupledRuns, for overlays and waveforms
     piece_coefficients: object = None  # PieceCoefficients aligned with runs.pieces
     summary: dict = field(default_factory=dict)
+    #: what was checked: scanned_trace_fraction, layers[] (name, scanned, reference, reason), ...
+    coverage: dict = field(default_factory=dict)
+    #: reasons part of the board was not checked; any makes the verdict "incomplete" unless it fails
+    unchecked: list[str] = field(default_factory=list)
 
     @property
     def worst_status(self) -> str:
@@ -124,13 +131,23 @@ class ScanResult:
         return "pass"
 
     @property
+    def verdict(self) -> str:
+        """fail (some victim or limit over budget), incomplete (nothing over, but not all checked), pass."""
+        if self.worst_status == "fail":
+            return "fail"
+        return "incomplete" if self.unchecked else "pass"
+
+    @property
     def exit_code(self) -> int:
-        return 1 if self.worst_status == "fail" else 0
+        return EXIT_CODES[self.verdict]
 
     def to_dict(self) -> dict:
         return {
             "schema": SCHEMA,
             "caution": CAUTION,
+            "verdict": self.verdict,
+            "coverage": self.coverage,
+            "unchecked": list(self.unchecked),
             "board": self.board,
             "stackup": self.stackup,
             "rules": self.rules,
