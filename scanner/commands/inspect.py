@@ -1,13 +1,13 @@
 """``nearfar inspect``: what nearfar read from a board's files, before any scan."""
 from __future__ import annotations
 
-import json
 from pathlib import Path
 
 import click
 
 from scanner import load_board
 from scanner.board.model import Board
+from scanner.report.files import json_text
 
 #: faults quoted on the terminal (all of them are in --json)
 SHOWN_FAULTS = 10
@@ -99,5 +99,5 @@ def command(board, as_json, board_file):
     """Show what nearfar reads from BOARD (a folder, .zip, or ODB++ job .tgz): copper layers in stack order, planes,
     nets, stackup, how well the copper matched the netlist, and parser warnings."""
     data = inspect_data(load_board(board, board_file=board_file))
-    click.echo(json.dumps(data, indent=2) if as_json else render_inspect(data))
+    click.echo(json_text(data, "inspect --json", indent=2) if as_json else render_inspect(data), nl=not as_json)
     return 0
