@@ -54,10 +54,11 @@ def spreadsheet_safe(value):
 
 
 def hotspots_csv(result: ScanResult) -> str:
-    """One row per listed hotspot under a header; the first line, a comment, names the run."""
+    """One row per listed hotspot under a header; the first line, a comment, names the run. Lines end in CRLF
+    as RFC 4180 has it, which also makes the writer quote a cell holding a carriage return."""
     buf = io.StringIO()
-    buf.write(f"# nearfar run {result.run_id}, {result.created}\n")
-    w = csv.writer(buf, lineterminator="\n")
+    buf.write(f"# nearfar run {result.run_id}, {result.created}\r\n")
+    w = csv.writer(buf, lineterminator="\r\n")
     w.writerow(CSV_COLUMNS)
     for h in result.hotspots:
         d = h.to_dict()
