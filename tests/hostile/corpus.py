@@ -749,6 +749,19 @@ def odbpp_case(tmp, layer: str, text: str, says: str, line: int | None) -> Case:
 
 
 @case
+def odbpp_two_jobs_in_one_archive(tmp):
+    """The refusal names the archive, not the folder it was unpacked into."""
+    first, second = jobs.write_job(tmp / "a"), jobs.write_job(tmp / "b")
+    path = tmp / "two.zip"
+    with zipfile.ZipFile(path, "w") as zf:
+        for prefix, job in (("one", first), ("two", second)):
+            for f in sorted(job.rglob("*")):
+                if f.is_file():
+                    zf.write(f, f"{prefix}/{f.relative_to(job).as_posix()}")
+    return Case(path, "two.zip", "expected one ODB++ job, found 2")
+
+
+@case
 def odbpp_units_changed_mid_features(tmp):
     text = jobs.TOP.replace("P 35 20 2 P 0 0", "UNITS=INCH\nP 35 20 2 P 0 0")
     return odbpp_case(tmp, "top", text, "units changed from MM to INCH", text.splitlines().index("UNITS=INCH") + 1)

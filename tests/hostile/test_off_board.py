@@ -6,6 +6,8 @@ import json
 import pytest
 
 from scanner import load_board
+from scanner.errors import InputError
+from scanner.importers import _named_in_archive
 from tests.hostile import corpus
 from tests.hostile.cli import run_main
 from tests.importers_odbpp import jobs
@@ -63,3 +65,14 @@ def test_eda_data_that_names_no_copper(tmp_path, eda):
         assert board.incomplete == [f"the EDA data ({tmp_path / 'testjob/steps/pcb/eda/data'}) names nets, but no "
                                     "trace carries one: the nets cannot be trusted"]
         assert any(w.startswith("NETS INCOMPLETE") for w in board.warnings)
+
+
+def test_errors_inside_an_archive_name_the_entry(tmp_path):
+    """Whatever an importer raises about a file in the unpacking folder is shown as archive!entry."""
+    root = tmp_path / "nearfar-unpack-x"
+    named = _named_in_archive(InputError("bad", path=root / "gerbers" / "top.gbr", line=7), root, "board.zip!")
+    assert named.one_line() == "board.zip!gerbers/top.gbr:7: bad"
+    named = _named_in_archive(PermissionError(13, "Permission denied", str(root / "top.gbr")), root, "board.zip!")
+    assert (named.filename, named.strerror) == ("board.zip!top.gbr", "Permission denied")
+    elsewhere = InputError("bad", path=tmp_path / "rules.toml")
+    assert _named_in_archive(elsewhere, root, "board.zip!") is elsewhere
