@@ -34,10 +34,11 @@ def load_board(path, board_file=None) -> Board:
             try:
                 extract_job_archive(path, root)
                 return _load_folder(root, board_file, where=printable(str(path)), prefix=f"{path.name}!")
-            except InputError as exc:
-                raise _named_in_archive(exc, root, f"{path.name}!") from exc.__cause__
-            except OSError as exc:
-                raise _named_in_archive(exc, root, f"{path.name}!") from exc
+            except (InputError, OSError) as exc:
+                named = _named_in_archive(exc, root, f"{path.name}!")
+                if named is exc:
+                    raise
+                raise named from exc
     return _load_folder(path, board_file, where=printable(str(path)), prefix=f"{path}/")
 
 
