@@ -2,7 +2,6 @@
 from __future__ import annotations
 
 import dataclasses
-import json
 from pathlib import Path
 
 import click
@@ -11,6 +10,7 @@ from scanner import load_board
 from scanner.board.layerstack import describe_default, effective_stackup
 from scanner.board.model import Board
 from scanner.commands.options import stackup_option, stackup_override
+from scanner.report.files import json_text
 
 #: faults quoted on the terminal (all of them are in --json)
 SHOWN_FAULTS = 10
@@ -112,5 +112,5 @@ def command(board, as_json, board_file, stackup_path):
         stackup, _ = effective_stackup(the_board, stackup_override(stackup_path))
         the_board = dataclasses.replace(the_board, stackup=stackup)
     data = inspect_data(the_board)
-    click.echo(json.dumps(data, indent=2) if as_json else render_inspect(data))
+    click.echo(json_text(data, "inspect --json", indent=2) if as_json else render_inspect(data), nl=not as_json)
     return 0

@@ -11,6 +11,7 @@ import click
 from scanner import load_board, scan
 from scanner.commands.options import stackup_option, stackup_override
 from scanner.errors import InputError
+from scanner.outputs import check_output_folder
 from scanner.report.files import report_json
 from scanner.report.folder import write_report_folder
 from scanner.report.text import render
@@ -48,17 +49,20 @@ def command(board, rules_path, board_file, stackup_path, out_dir, top, as_json, 
     if out_dir is not None and board.is_dir() and out_dir.resolve() == board.resolve():
         raise InputError("the output folder is the board folder: reports could overwrite input files "
                          "(give a separate folder, or a subfolder)", path=out_dir)
+    if out_dir is not None:
+        check_output_folder(out_dir)  # before the long part: a folder that cannot be written stops the run now
     rules = load_rules(rules_path)
     rules = dataclasses.replace(rules, stackup=stackup_override(stackup_path, rules.stackup))
     progress(f"reading {board}")
     the_board = load_board(board, board_file=board_file)
     result = scan(the_board, rules, progress=progress)
 
+    report = report_json(result)  # every value checked before anything is written or printed
     if out_dir is not None:
         progress(f"writing reports to {out_dir}")
         write_report_folder(result, the_board, out_dir, images=not no_images)
     if as_json:
-        click.echo(report_json(result), nl=False)
+        click.echo(report, nl=False)
     else:
         click.echo(render(result, top=top))
     progress("done")

@@ -2,7 +2,6 @@
 own trace width and pair gap, to hold against the fabricator's impedance table."""
 from __future__ import annotations
 
-import json
 from pathlib import Path
 
 import click
@@ -13,6 +12,7 @@ from scanner.board.model import Board
 from scanner.board.roles import assign_roles
 from scanner.commands.options import stackup_option, stackup_override
 from scanner.coupling.layer_impedance import GAP_FROM_PAIRS, SignalLayerRow, pair_pieces, signal_layer_table
+from scanner.report.files import json_text
 from scanner.rules import load_rules
 
 CAUTION = ("Impedances are quasi-static field-solver estimates for the stackup shown. Compare them with the "
@@ -134,5 +134,5 @@ def command(board, stackup_path, rules_path, board_file, as_json):
     roles = assign_roles(the_board.nets, rules)
     rows = signal_layer_table(the_board, env, pair_pieces(the_board, env.signal, roles.partner))
     data = stackup_data(the_board, env, rows)
-    click.echo(json.dumps(data, indent=2) if as_json else render_stackup(data))
+    click.echo(json_text(data, "stackup --json", indent=2) if as_json else render_stackup(data), nl=not as_json)
     return 0

@@ -5,7 +5,9 @@ Plain result records and the JSON shape of ``report.json`` (schema
 """
 from __future__ import annotations
 
+import secrets
 from dataclasses import dataclass, field, asdict
+from datetime import datetime, timezone
 
 SCHEMA = "nearfar.report/2"
 
@@ -17,6 +19,16 @@ STATUS_ORDER = {"fail": 0, "warn": 1, "pass": 2}
 
 #: exit status of a scan by verdict (2 bad input and 4 internal error come from the command line)
 EXIT_CODES = {"pass": 0, "fail": 1, "incomplete": 3}
+
+
+def new_run_id() -> str:
+    """An id for one run, named by every file the run writes: 16 random hex digits."""
+    return secrets.token_hex(8)
+
+
+def utc_now() -> str:
+    """The time in UTC, ISO 8601 to the second (``2026-12-02T05:33:09Z``)."""
+    return datetime.now(timezone.utc).strftime("%Y-%m-%dT%H:%M:%SZ")
 
 
 def rounded(x, digits: int = 3) -> float:
@@ -122,6 +134,9 @@ class ScanResult:
     #: reasons part of the board was not checked; any makes the verdict "incomplete" unless it fails
     unchecked: list[str] = field(default_factory=list)
     impedance: object = None  # scanner.scoring.impedance.ImpedanceCheck
+    #: this run's id and time, in report.json and named by every other file of the run
+    run_id: str = field(default_factory=new_run_id)
+    created: str = field(default_factory=utc_now)
 
     @property
     def worst_status(self) -> str:
@@ -147,6 +162,8 @@ class ScanResult:
     def to_dict(self) -> dict:
         return {
             "schema": SCHEMA,
+            "run_id": self.run_id,
+            "created": self.created,
             "caution": CAUTION,
             "verdict": self.verdict,
             "coverage": self.coverage,
