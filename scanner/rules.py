@@ -116,6 +116,7 @@ class ScanSettings:
     budget_basis: str = "worst-case"
     differential_aggressor: str = "two-lines"
     auto_diff_pairs: bool = True
+    skip_layers: tuple[str, ...] = ()  # copper layer names left out of the search (the verdict is then incomplete)
 
 
 @dataclass(frozen=True)
@@ -172,6 +173,7 @@ _CLASS_KEYS = {
 _SCAN_KEYS = {
     "search_distance_mm": float, "min_coupled_length_mm": float, "angle_tolerance_deg": float,
     "warn_fraction": float, "list_floor": float, "budget_basis": str, "differential_aggressor": str, "auto_diff_pairs": bool,
+    "skip_layers": list,
 }
 _STACK_KEYS = {"kind": str, "name": str, "thickness_mm": float, "epsilon_r": float}
 _PAIR_KEYS = {
@@ -225,6 +227,11 @@ def parse_rules(doc: dict, source: str) -> Rules:
         raise bad("[scan] warn_fraction must be in (0, 1]")
     if "list_floor" in scan_kw and not 0 <= scan_kw["list_floor"] <= 1:
         raise bad("[scan] list_floor must be in [0, 1]")
+    if "skip_layers" in scan_kw:
+        names = scan_kw["skip_layers"]
+        if not all(isinstance(n, str) and n for n in names):
+            raise bad("[scan] skip_layers must be a list of copper layer names")
+        scan_kw["skip_layers"] = tuple(names)
     scan = ScanSettings(**scan_kw)
 
     classes = []
