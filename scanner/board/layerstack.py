@@ -186,7 +186,8 @@ def layer_environments(board: Board, stackup: Stackup, plane_layers: set[int]) -
                                    LayerReference(kind, (near.reached, far_walk.reached)), on_plane)
         else:
             near, far_walk = (below, above) if below.plane else (above, below)
-            mask = far_walk.dielectrics[-1] if far_walk.mask else None
+            # the mask coats the trace only on an outer layer; beyond laminate it is one more flat layer
+            mask = far_walk.dielectrics[-1] if far_walk.mask and len(far_walk.dielectrics) == 1 else None
             env = LayerEnvironment(layer.index, "microstrip", tuple(reversed(near.dielectrics)),
                                    tuple(far_walk.dielectrics), thickness, mask,
                                    LayerReference(kind, (near.reached,)), on_plane)

@@ -33,7 +33,10 @@ def verdict_sentence(result: ScanResult) -> str:
     elif verdict == "incomplete":
         why = "nothing over budget, but part of the board was not checked"
     elif sm.get("coupled_runs", 0) == 0:
-        why = "no parallel runs of different nets within the search distance"
+        why = ("no parallel runs of different nets within the search distance"
+               if not result.coverage.get("parallel_pieces_found") else
+               f"no parallel run of different nets reaches {result.settings.get('min_coupled_length_mm')} mm "
+               f"(the shortest scored)")
     else:
         why = f"all {sm.get('victims', 0)} victims within budget"
     return f"{VERDICT_WORD[verdict]}: {why}; {checked_sentence(result)}"

@@ -61,8 +61,8 @@ def coverage_and_gaps(board: Board, roles: NetRoles, env: BoardEnvironments,
                 gaps.append(f"layer {layer.name} not searched ({why}): {layer_signal:.1f} mm of signal trace")
         layers.append(row)
     if signal_mm == 0 and power_mm > 0:
-        gaps.append(f"no signal trace: all {power_mm:.1f} mm of trace are on power or ground nets, so nothing "
-                    f"was checked (see the rules' [power] patterns)")
+        gaps.append(f"no signal trace: all {power_mm:.1f} mm of trace are on power or ground nets (by name, or "
+                    f"owning a plane's pour), so nothing was checked")
     elif len(signal_nets) == 1:
         gaps.append("only one signal net carries trace: no two nets to check against each other "
                     "(were nets merged by a short?)")
