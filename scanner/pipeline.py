@@ -49,20 +49,19 @@ def _unknown_layer_names(board: Board, rules: Rules) -> list[str]:
 
 
 def _plane_nets(board: Board, env: BoardEnvironments) -> set[str]:
-    """Reference nets: every net that owns a pour on a plane layer, and the net owning most of a pour that
-    stands in for a plane (the far side of a board without planes)."""
+    """Reference nets: every net that owns a pour on a plane layer, and the net owning most copper on a
+    pour that stands in for a plane (the far side of a board without planes; pours drawn as strokes count)."""
     nets = set()
     pours = {i for e in env.signal.values() if e.reference.kind == "pour" for i in e.reference.layers}
     for layer in board.layers:
-        if not len(layer.shapes) or (layer.index not in env.plane_layers and layer.index not in pours):
-            continue
-        regions = layer.shapes.role == "region"
-        ids = layer.shapes.net[regions]
-        if layer.index in env.plane_layers:
-            nets.update(board.nets[i] for i in np.unique(ids) if i >= 0)
-            continue
-        area = shapely.area(layer.shapes.geometry[regions])
-        owned = ids >= 0
-        if owned.any():
-            nets.add(board.nets[int(np.bincount(ids[owned], weights=area[owned]).argmax())])
+        shapes, seg = layer.shapes, layer.segments
+        if layer.index in env.plane_layers and len(shapes):
+            nets.update(board.nets[i] for i in np.unique(shapes.net[shapes.role == "region"]) if i >= 0)
+        elif layer.index in pours:
+            regions = shapes.role == "region"
+            net = np.r_[shapes.net[regions], seg.net]
+            area = np.r_[shapely.area(shapes.geometry[regions]), seg.length_mm * seg.width]
+            owned = net >= 0
+            if owned.any():
+                nets.add(board.nets[int(np.bincount(net[owned], weights=area[owned]).argmax())])
     return nets

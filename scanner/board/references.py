@@ -43,7 +43,7 @@ def describe_reference(board: Board, env: LayerEnvironment, plane_layers) -> Ref
     fill = board.layers[ref.layers[0]].fill_ratio or 0.0
     text = (f"microstrip over {near} pour, {height}" if ref.kind == "pour"
             else f"microstrip over the far side ({near}), {height}")
-    poured = f"{near} pours cover {100 * fill:.0f} % of the board" if fill > 0 else f"{near} carries no pour"
+    poured = f"{near} pours cover {100 * fill:.0f} % of the board" if fill >= 0.005 else f"{near} carries no pour"
     others = " other than its own" if env.on_plane else ""
     return ReferenceText(own + text, f"no plane layer on the board{others}; {poured}; {FAR_SIDE_NOTE}")
 

@@ -83,7 +83,7 @@ def _search_text(settings: dict) -> str:
     """The search distance, or its range when the layers differ."""
     values = sorted(set((settings.get("search_distance_by_layer_mm") or {}).values()))
     if len(values) > 1:
-        return f"{values[0]:g}–{values[-1]:g} mm by layer"
+        return f"{values[0]:.3g}–{values[-1]:.3g} mm by layer"
     return f"{settings['search_distance_mm']:g} mm"
 
 
