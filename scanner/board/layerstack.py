@@ -136,7 +136,7 @@ def board_environments(board: Board, stackup_override: Stackup | None, named_pla
     for layer in board.layers:
         if layer.name in skip_layers:
             skipped[layer.index] = "skipped by the rules ([scan] skip_layers)"
-        elif layer.index not in envs and layer.index not in plane_layers:
+        elif layer.index not in envs and (layer.index not in plane_layers or len(layer.segments)):
             skipped[layer.index] = "the only copper layer: no plane or far side to reference it to"
     envs = {i: e for i, e in envs.items() if i not in skipped}
     for i, why in skipped.items():
@@ -144,9 +144,9 @@ def board_environments(board: Board, stackup_override: Stackup | None, named_pla
             warnings.append(f"layer {board.layers[i].name} not scanned: {why}")
     far = [board.layers[i].name for i, e in envs.items() if e.reference.kind != "plane"]
     if far:
-        warnings.append(f"no reference plane found: {', '.join(far)} referenced to the far side of the board "
-                        f"(coupling is stronger than over a plane; mark planes with 'planes' in the rules if "
-                        f"the files do not say which layers they are)")
+        warnings.append(f"{', '.join(far)} referenced to the far side of the board, having no plane beside "
+                        f"{'it' if len(far) == 1 else 'them'} (coupling is stronger than over a plane; name the "
+                        f"planes with 'planes' in the rules if the files do not say which layers they are)")
     broadside = broadside_environments(board, stackup, envs, plane_layers)
     return BoardEnvironments(stackup, plane_layers, envs, broadside, tuple(warnings), skipped)
 

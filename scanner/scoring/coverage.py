@@ -52,16 +52,16 @@ def coverage_and_gaps(board: Board, roles: NetRoles, env: BoardEnvironments,
             no_net_mm += layer_no_net
             signal_nets.update(np.unique(seg.net[on_net]).tolist())
             if layer_no_net > 0:
-                gaps.append(f"layer {layer.name}: {layer_no_net:.1f} mm of trace carries no net and was not searched")
+                gaps.append(f"layer {layer.name}: {layer_no_net:,.1f} mm of trace carries no net and was not searched")
         else:
             why = env.skipped.get(layer.index, "reference plane, no traces on it")
             row |= {"reference": None, "reference_kind": None, "reference_layers": [], "evidence": None,
                     "height_mm": None, "search_distance_mm": None, "reason": why}
             if layer_signal > 0:
-                gaps.append(f"layer {layer.name} not searched ({why}): {layer_signal:.1f} mm of signal trace")
+                gaps.append(f"layer {layer.name} not searched ({why}): {layer_signal:,.1f} mm of signal trace")
         layers.append(row)
     if signal_mm == 0 and power_mm > 0:
-        gaps.append(f"no signal trace: all {power_mm:.1f} mm of trace are on power or ground nets (by name, or "
+        gaps.append(f"no signal trace: all {power_mm:,.1f} mm of trace are on power or ground nets (by name, or "
                     f"owning a plane's pour), so nothing was checked")
     elif len(signal_nets) == 1:
         gaps.append("only one signal net carries trace: no two nets to check against each other "
