@@ -60,7 +60,11 @@ def coverage_and_gaps(board: Board, roles: NetRoles, env: BoardEnvironments,
             if layer_signal > 0:
                 gaps.append(f"layer {layer.name} not searched ({why}): {layer_signal:,.1f} mm of signal trace")
         layers.append(row)
-    if signal_mm == 0 and power_mm > 0:
+    shapes = sum(len(layer.shapes) for layer in board.layers)
+    if signal_mm == 0 and power_mm == 0 and shapes:
+        gaps.append(f"no trace draws on any layer: the copper ({shapes} pads and regions) was not searched for "
+                    f"coupling, which reads traces only")
+    elif signal_mm == 0 and power_mm > 0:
         gaps.append(f"no signal trace: all {power_mm:,.1f} mm of trace are on power or ground nets (by name, or "
                     f"owning a plane's pour), so nothing was checked")
     elif len(signal_nets) == 1:

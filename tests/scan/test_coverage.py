@@ -145,6 +145,10 @@ def _short_run():
     return two_layer_board({0: pair(0, "DATA_A", "DATA_B", length=0.5)}, NETS)
 
 
+def _regions_only():
+    return two_layer_board({}, NETS, pour=(0, N["DATA_A"], (0, 0, 40, 0.2), 0.01))
+
+
 @pytest.mark.parametrize("make, passes", [
     (_far_apart, True),    # truly no parallel runs
     (_short_run, True),    # parallel, but shorter than the minimum coupled length (a stated setting)
@@ -152,7 +156,8 @@ def _short_run():
     (_power_only, False),  # copper, but no signal net on it
     (_no_net, False),      # trace that carries no net cannot be searched
     (_one_net, False),     # one net: nothing to check it against
-], ids=["far-apart", "short-run", "one-layer", "power-only", "no-net", "one-net"])
+    (_regions_only, False),  # copper drawn as regions only: the search reads traces
+], ids=["far-apart", "short-run", "one-layer", "power-only", "no-net", "one-net", "regions-only"])
 def test_no_board_with_copper_and_zero_scored_runs_passes_unless_fully_searched(make, passes):
     result = scan(make(), parse_rules(LENIENT, "lenient"))
     assert result.summary["coupled_runs"] == 0
