@@ -13,6 +13,7 @@ from pathlib import Path
 
 from scanner.outputs import write_file
 from scanner.report import names, palette
+from scanner.report.checked import board_notes, gap_lines, reference_lines, verdict_sentence
 from scanner.report.marks import PASS_SHOWN_TOP, geometric_label, shown_findings
 from scanner.scoring.results import CAUTION, SCHEMA, Hotspot, ScanResult, VictimTotal
 
@@ -140,6 +141,22 @@ def _header(result: ScanResult, folder: _Folder) -> Markup:
     return Markup(tag("h1", f"Crosstalk report: {result.board.get('name', '')}") + verdict
                   + tag("p", [tag("strong", "Caution. "), CAUTION], class_="caution")
                   + tag("nav", [link(f"#{a}", t) for a, t in sections]) + data)
+
+
+def _checked(result: ScanResult) -> Markup:
+    """The verdict and what was checked: a block with its own inline styles, first on the page."""
+    verdict = result.verdict
+    colour = palette.STATUS_COLOUR["warn" if verdict == "incomplete" else verdict]
+    text = palette.STATUS_TEXT["warn" if verdict == "incomplete" else verdict]
+    word, _, rest = verdict_sentence(result).partition(": ")
+    head = tag("p", [tag("strong", word, style=f"background:{colour};color:{text};padding:0.1rem 0.55rem;"
+                                                 "border-radius:0.5rem;margin-right:0.5rem"), rest],
+               style="margin:0;font-size:1.1rem")
+    gaps = tag("ul", [tag("li", line) for line in gap_lines(result)], style="margin:0.4rem 0 0;padding-left:1.3rem")
+    refs = tag("ul", [tag("li", line) for line in reference_lines(result) + board_notes(result)],
+               style="margin:0.4rem 0 0;padding-left:1.3rem;font-size:0.85rem;color:#5b544a")
+    return tag("section", [head, gaps if result.unchecked else "", refs], id="checked",
+               style=f"border:2px solid {colour};border-radius:6px;padding:0.6rem 0.9rem;margin:1rem 0 0.6rem")
 
 
 def _joined(items: list[Markup], sep: str) -> list:
@@ -434,7 +451,7 @@ def _version() -> str:
 def render_page(result: ScanResult, out_dir: str | Path) -> str:
     """The page's HTML; links only to files that exist in ``out_dir``."""
     folder = _Folder(Path(out_dir))
-    body = (_header(result, folder) + _board(result) + _rules(result) + _maps(result, folder)
+    body = (_checked(result) + _header(result, folder) + _board(result) + _rules(result) + _maps(result, folder)
             + _findings(result, folder) + _geometric(result, folder) + _impedance(result) + _details(result, folder)
             + _victims(result.victims) + _assumptions(result)
             + tag("footer", f"nearfar {_version()}; data schema {SCHEMA}; run {result.run_id}, {result.created}.",
