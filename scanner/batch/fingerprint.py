@@ -19,12 +19,16 @@ def nearfar_version() -> str:
         return "unknown"
 
 
-def rules_digest(rules_path: Path | None) -> str:
-    """The rules file's bytes (the defaults when there is none)."""
-    if rules_path is None:
+def rules_digest(rules_path: Path | None, stackup_path: Path | None = None) -> str:
+    """The bytes of the rules file and of the stackup file (each may be absent: the defaults)."""
+    if rules_path is None and stackup_path is None:
         return "defaults"
     h = hashlib.sha256()
-    _add_file(h, rules_path)
+    for path in (rules_path, stackup_path):
+        if path is None:
+            h.update(b"none\0")
+        else:
+            _add_file(h, path)
     return h.hexdigest()
 
 

@@ -8,7 +8,7 @@ from pathlib import Path
 
 from scanner.batch.index_page import render_index
 from scanner.batch.rows import COLUMNS, BoardRow, counts, exit_status, worst_first
-from scanner.outputs import write_atomic
+from scanner.outputs import replace_file
 from scanner.scoring.results import CAUTION
 
 SCHEMA = "nearfar.batch/1"
@@ -35,6 +35,6 @@ def batch_csv(rows: list[BoardRow]) -> str:
 def write_summary(rows: list[BoardRow], run: dict, out_dir: Path) -> list[Path]:
     """The three summary files in ``out_dir``; the page last, once the data it links is there."""
     summary = batch_dict(rows, run)
-    return [write_atomic(out_dir / JSON_FILE, json.dumps(summary, indent=1, allow_nan=False) + "\n"),
-            write_atomic(out_dir / CSV_FILE, batch_csv(rows)),
-            write_atomic(out_dir / INDEX_FILE, render_index(summary, out_dir, data_files=(JSON_FILE, CSV_FILE)))]
+    return [replace_file(out_dir / JSON_FILE, json.dumps(summary, indent=1, allow_nan=False) + "\n"),
+            replace_file(out_dir / CSV_FILE, batch_csv(rows)),
+            replace_file(out_dir / INDEX_FILE, render_index(summary, out_dir, data_files=(JSON_FILE, CSV_FILE)))]

@@ -17,8 +17,8 @@ from pathlib import Path
 from scanner.batch.fingerprint import inputs_digest
 from scanner.batch.rows import BoardRow, scanned_row, unscanned_row
 from scanner.errors import InputError, printable
-from scanner.outputs import write_atomic
-from scanner.scan_job import scan_board
+from scanner.outputs import replace_file
+from scanner.scan_job import check_output, scan_board
 
 #: written into a board's report folder after everything else: the inputs the report was made from
 ENTRY_FILE = "batch-entry.json"
@@ -80,10 +80,13 @@ def _scan_or_reuse(job: BoardJob, started: float) -> BoardRow:
         if row is not None:
             return row
     entry.unlink(missing_ok=True)  # the folder no longer stands for these inputs until the new report is whole
-    result, _ = scan_board(job.board, job.rules, out_dir=job.report_dir, images=job.images)
+    if (job.report_dir / ERROR_FILE).exists():
+        _clear(job.report_dir)  # the folder of an earlier internal error holds no report to replace
+    check_output(job.board, job.report_dir)
+    result = scan_board(job.board, job.rules, out_dir=job.report_dir, images=job.images).result
     main = "report.html" if job.images else "report.json"
     row = scanned_row(result, job.shown, f"{job.folder}/{main}", time.perf_counter() - started)
-    write_atomic(entry, json.dumps({"schema": ENTRY_SCHEMA, "inputs": digest, "row": row.to_dict()}, indent=1) + "\n")
+    replace_file(entry, json.dumps({"schema": ENTRY_SCHEMA, "inputs": digest, "row": row.to_dict()}, indent=1) + "\n")
     return row
 
 
@@ -111,7 +114,8 @@ def error_row(job: BoardJob, exc: BaseException, details: str, seconds: float) -
     _clear(job.report_dir)
     report = None
     try:
-        write_atomic(job.report_dir / ERROR_FILE, f"{job.shown}\n\n{details}")
+        job.report_dir.mkdir(parents=True, exist_ok=True)
+        replace_file(job.report_dir / ERROR_FILE, f"{job.shown}\n\n{details}")
         report = f"{job.folder}/{ERROR_FILE}"
     except OSError:
         pass  # the row still says what happened

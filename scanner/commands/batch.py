@@ -1,6 +1,7 @@
 """``nearfar batch``: many boards at once on a Dask cluster, one report folder each and a summary."""
 from __future__ import annotations
 
+import dataclasses
 import sys
 from pathlib import Path
 
@@ -10,6 +11,7 @@ from scanner.batch.boards import expand_boards
 from scanner.batch.rows import counts, exit_status, worst_first
 from scanner.batch.run import run_batch
 from scanner.batch.summary import CSV_FILE, INDEX_FILE, JSON_FILE
+from scanner.commands.options import stackup_option, stackup_override
 from scanner.errors import printable
 from scanner.rules import load_rules
 from scanner.scoring.results import CAUTION
@@ -22,6 +24,7 @@ SHOWN_ROWS = 25
 @click.argument("boards", nargs=-1, required=True)
 @click.option("--rules", "rules_path", type=click.Path(path_type=Path), default=None,
               help="Rules file (TOML) for every board. Defaults are used without one.")
+@stackup_option
 @click.option("--out", "out_dir", type=click.Path(path_type=Path, file_okay=False), default=Path("nearfar-batch"),
               show_default=True, help="Folder for one report folder per board and batch.json, batch.csv, index.html.")
 @click.option("--scheduler", default=None, metavar="ADDRESS",
@@ -31,15 +34,19 @@ SHOWN_ROWS = 25
               help="Worker processes of the local cluster [default: one per core].")
 @click.option("--force", is_flag=True, help="Scan every board again, even when its files and the rules are unchanged.")
 @click.option("--no-images", is_flag=True, help="Only report.json and hotspots.csv per board: no images or page.")
-def command(boards, rules_path, out_dir, scheduler, workers, force, no_images):
+def command(boards, rules_path, stackup_path, out_dir, scheduler, workers, force, no_images):
     """Scan many BOARDS (folders or archives, as for `nearfar scan`; @FILE reads board paths from FILE, one a
     line) on Dask: a local cluster of worker processes, or the cluster at --scheduler. Each board gets its
     report folder under --out; batch.json, batch.csv and index.html list them all, worst first. Boards
     whose files and rules are unchanged since their last report are not scanned again.
 
-    Exit status: 0 every board within budget, 1 some board over budget, 3 none over budget but some
-    not fully checked or refused as bad input, 4 none over budget but an internal error on some board,
-    2 bad command input (rules, lists, scheduler).
+    \b
+    Exit status:
+      0  every board checked completely and within budget
+      1  some board fails
+      2  bad input to the command itself (rules, stackup, list file, scheduler)
+      3  none fails, but some board is incomplete or refused as bad input
+      4  none fails, but nearfar hit an internal error on some board
     """
     if scheduler is not None and workers is not None:
         raise click.UsageError("--workers sets the size of the local cluster; it does not apply with --scheduler")
@@ -47,7 +54,8 @@ def command(boards, rules_path, out_dir, scheduler, workers, force, no_images):
     for note in notes:
         click.echo(f"note: {printable(note)}", err=True)
     rules = load_rules(rules_path)
-    rows, run = run_batch(entries, rules, rules_path, out_dir, scheduler=scheduler, workers=workers,
+    rules = dataclasses.replace(rules, stackup=stackup_override(stackup_path, rules.stackup))
+    rows, run = run_batch(entries, rules, rules_path, out_dir, stackup_path=stackup_path, scheduler=scheduler, workers=workers,
                           images=not no_images, force=force, progress_stream=sys.stderr, live=sys.stderr.isatty())
     click.echo(_terminal_summary(rows, run, out_dir))
     return exit_status(rows)

@@ -1,16 +1,17 @@
 """``nearfar scan``: the main job."""
 from __future__ import annotations
 
+import dataclasses
 import sys
 import time
 from pathlib import Path
 
 import click
 
-from scanner.report.files import report_json
+from scanner.commands.options import stackup_option, stackup_override
 from scanner.report.text import render
 from scanner.rules import load_rules
-from scanner.scan_job import scan_board
+from scanner.scan_job import check_output, scan_board
 
 
 @click.command("scan")
@@ -19,19 +20,30 @@ from scanner.scan_job import scan_board
               help="Rules file (TOML): net classes, budgets, pairs, stackup. Defaults are used and printed without one.")
 @click.option("--board-file", type=click.Path(path_type=Path), default=None,
               help="Board description (TOML) naming layers in stack order, planes and netlist, for files nothing can guess.")
+@stackup_option
 @click.option("--out", "out_dir", type=click.Path(path_type=Path, file_okay=False), default=None,
               help="Folder for report.json, hotspots.csv, images and report.html.")
 @click.option("--top", type=click.IntRange(min=1), default=20, show_default=True,
               help="Hotspots listed on the terminal.")
 @click.option("--json", "as_json", is_flag=True, help="Print report.json to standard output instead of the table.")
 @click.option("--no-images", is_flag=True, help="Skip overlay images, waveform plots and the report page.")
-def command(board, rules_path, board_file, out_dir, top, as_json, no_images):
+def command(board, rules_path, board_file, stackup_path, out_dir, top, as_json, no_images):
     """Find parallel runs between nets on BOARD (a folder or .zip of Gerber, drill and netlist files, or an
     ODB++ job folder or .tgz), predict NEXT and FEXT on every victim, check the net-class budgets and rank
     the hotspots.
 
-    Exit status: 0 all victims within budget, 1 some victim over budget or a geometric limit broken,
-    2 bad input.
+    Every layer with traces is scanned: against its nearest plane, or, on a board without planes, against
+    the far side of the board (said in the report). The first line gives the verdict and how much signal
+    trace was checked.
+
+    \b
+    Exit status:
+      0  pass: the whole board checked, every victim within budget
+      1  fail: some victim over budget, or a geometric limit broken
+      2  bad input (one line naming the file)
+      3  incomplete: nothing over budget, but part of the board was not checked
+         (a layer skipped by the rules, trace without a net, an import gap)
+      4  internal error in nearfar
     """
     show_progress = not as_json and sys.stderr.isatty()
     started = time.perf_counter()
@@ -40,11 +52,15 @@ def command(board, rules_path, board_file, out_dir, top, as_json, no_images):
         if show_progress:
             click.echo(f"[{time.perf_counter() - started:6.1f} s] {msg}", err=True)
 
+    if out_dir is not None:
+        check_output(board, out_dir)
     rules = load_rules(rules_path)
-    result, _ = scan_board(board, rules, out_dir=out_dir, board_file=board_file, images=not no_images,
-                           progress=progress)
+    rules = dataclasses.replace(rules, stackup=stackup_override(stackup_path, rules.stackup))
+    scanned = scan_board(board, rules, out_dir=out_dir, board_file=board_file, images=not no_images,
+                         progress=progress)
+    result = scanned.result
     if as_json:
-        click.echo(report_json(result), nl=False)
+        click.echo(scanned.report_json, nl=False)
     else:
         click.echo(render(result, top=top))
     progress("done")

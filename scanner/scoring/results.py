@@ -5,7 +5,9 @@ Plain result records and the JSON shape of ``report.json`` (schema
 """
 from __future__ import annotations
 
+import secrets
 from dataclasses import dataclass, field, asdict
+from datetime import datetime, timezone
 
 SCHEMA = "nearfar.report/2"
 
@@ -17,6 +19,16 @@ STATUS_ORDER = {"fail": 0, "warn": 1, "pass": 2}
 
 #: exit status of a scan by verdict (2 bad input and 4 internal error come from the command line)
 EXIT_CODES = {"pass": 0, "fail": 1, "incomplete": 3}
+
+
+def new_run_id() -> str:
+    """An id for one run, named by every file the run writes: 16 random hex digits."""
+    return secrets.token_hex(8)
+
+
+def utc_now() -> str:
+    """The time in UTC, ISO 8601 to the second (``2026-12-02T05:33:09Z``)."""
+    return datetime.now(timezone.utc).strftime("%Y-%m-%dT%H:%M:%SZ")
 
 
 def rounded(x, digits: int = 3) -> float:
@@ -121,10 +133,15 @@ class ScanResult:
     coverage: dict = field(default_factory=dict)
     #: reasons part of the board was not checked; any makes the verdict "incomplete" unless it fails
     unchecked: list[str] = field(default_factory=list)
+    impedance: object = None  # scanner.scoring.impedance.ImpedanceCheck
+    #: this run's id and time, in report.json and named by every other file of the run
+    run_id: str = field(default_factory=new_run_id)
+    created: str = field(default_factory=utc_now)
 
     @property
     def worst_status(self) -> str:
         statuses = [v.status for v in self.victims] + [g.status for g in self.geometric]
+        statuses += [s.status for s in self.impedance.stretches] if self.impedance is not None else []
         for s in ("fail", "warn"):
             if s in statuses:
                 return s
@@ -132,7 +149,8 @@ class ScanResult:
 
     @property
     def verdict(self) -> str:
-        """fail (some victim or limit over budget), incomplete (nothing over, but not all checked), pass."""
+        """fail (some victim or limit over budget, or a stretch off its impedance target), incomplete (nothing
+        over, but not all checked), pass."""
         if self.worst_status == "fail":
             return "fail"
         return "incomplete" if self.unchecked else "pass"
@@ -144,6 +162,8 @@ class ScanResult:
     def to_dict(self) -> dict:
         return {
             "schema": SCHEMA,
+            "run_id": self.run_id,
+            "created": self.created,
             "caution": CAUTION,
             "verdict": self.verdict,
             "coverage": self.coverage,
@@ -157,4 +177,5 @@ class ScanResult:
             "hotspots": [h.to_dict() for h in self.hotspots],
             "victims": [v.to_dict() for v in self.victims],
             "geometric": [g.to_dict() for g in self.geometric],
+            "impedance": None if self.impedance is None else self.impedance.to_dict(),
         }
