@@ -11,7 +11,7 @@ from pathlib import Path
 import pytest
 
 import scanner.commands.inspect
-import scanner.commands.scan
+import scanner.scan_job
 from scanner import load_board, scan
 from scanner.report.files import hotspots_csv
 from scanner.workspace import Stopped
@@ -117,7 +117,7 @@ def test_value_not_finite_is_refused_before_anything_is_written(previous, board,
         result = scan(*args, **kwargs)
         result.hotspots[0].next_mv = float("inf")
         return result
-    monkeypatch.setattr(scanner.commands.scan, "scan", overflowing)
+    monkeypatch.setattr(scanner.scan_job, "scan", overflowing)  # the scan command scans through scan_job
     for args in (["--out", out_dir, *QUICK], ["--json"]):
         code, out, err = run_main(["scan", board, *args], capsys)
         assert code == 4 and out == ""

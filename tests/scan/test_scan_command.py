@@ -85,7 +85,7 @@ def test_an_internal_error_exits_4_in_one_line(monkeypatch, capsys):
     def broken(*_args, **_kw):
         raise RuntimeError("planted fault")
 
-    monkeypatch.setattr("scanner.commands.scan.scan", broken)
+    monkeypatch.setattr("scanner.scan_job.scan", broken)  # the scan command scans through scan_job
     code, out, err = run(["scan", str(DEMO)], capsys)
     assert code == 4 and out == ""
     assert err.count("\n") == 1 and "internal error: RuntimeError: planted fault" in err and "Traceback" not in err
