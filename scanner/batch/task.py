@@ -17,7 +17,7 @@ from pathlib import Path
 from scanner.batch.fingerprint import inputs_digest
 from scanner.batch.rows import BoardRow, scanned_row, unscanned_row
 from scanner.errors import InputError, printable
-from scanner.outputs import replace_file
+from scanner.outputs import check_replaceable, replace_file
 from scanner.scan_job import check_output, scan_board
 
 #: written into a board's report folder after everything else: the inputs the report was made from
@@ -124,7 +124,17 @@ def error_row(job: BoardJob, exc: BaseException, details: str, seconds: float) -
 
 
 def _clear(report_dir: Path) -> None:
-    """No report from earlier inputs stays behind a board that now has none."""
+    """No report from earlier inputs stays behind a board that now has none. Only a folder nearfar wrote
+    goes: a report (with its entry) or an error file; one holding anything else is left alone."""
+    try:
+        names = set(os.listdir(report_dir))
+    except OSError:
+        return
+    if not names <= {ERROR_FILE}:
+        try:
+            check_replaceable(report_dir, report_dir)
+        except InputError:
+            return
     shutil.rmtree(report_dir, ignore_errors=True)
 
 

@@ -122,6 +122,17 @@ def test_an_internal_error_is_a_row_with_its_traceback_beside(tmp_path, monkeypa
     assert "Traceback" in (job.report_dir / task.ERROR_FILE).read_text()
 
 
+def test_a_report_folder_holding_files_of_others_is_refused_and_kept(tmp_path):
+    board = tmp_path / "board"
+    board.mkdir()
+    job = _job(tmp_path, board)
+    job.report_dir.mkdir(parents=True)
+    (job.report_dir / "notes.txt").write_text("mine")
+    row = task.run_job(job)
+    assert row.verdict == "refused" and "did not write" in row.reason
+    assert (job.report_dir / "notes.txt").read_text() == "mine"
+
+
 def test_an_output_folder_inside_the_board_is_refused(tmp_path):
     job = task.BoardJob(shown="here", board=tmp_path, out_dir=tmp_path / "reports", folder="x-1",
                         rules=Rules(), rules_digest="defaults")
