@@ -8,7 +8,9 @@ reports without images and with them:
 - batch with 1 and with 2 workers: ``scanner.batch.run.run_batch`` with ``force`` (every board scanned),
   wall time from the cluster's start to the summary written, into a fresh folder each time;
 - the re-run with 2 workers, nothing changed (every board skipped);
-- starting and closing a local cluster with no work, for the fixed part of the overhead.
+- starting and closing a local cluster with no work, for the fixed part of the overhead;
+- a control without Dask: the plain scans split between two processes started together, for the
+  speed-up the machine itself offers at that moment (it is shared with other jobs).
 
     python benchmarks/bench_batch.py [COPIES] [--tables-only]
 """
@@ -20,6 +22,8 @@ os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")  # as the nearfar command doe
 
 import shutil
 import sys
+from concurrent.futures import ProcessPoolExecutor
+from multiprocessing import get_context
 import tempfile
 import time
 from pathlib import Path
@@ -41,6 +45,12 @@ def timed(fn) -> float:
     return time.perf_counter() - started
 
 
+def plain_scans(boards: list[Path], out: Path, images: bool) -> None:
+    rules = load_rules(RULES)
+    for b in boards:
+        scan_board(b, rules, out_dir=out / b.name, images=images)
+
+
 def bench(copies: int, images: bool, work: Path) -> None:
     boards = [work / "boards" / f"copy-{i:02d}" for i in range(copies)]
     entries, _ = expand_boards([str(b) for b in boards])
@@ -48,8 +58,11 @@ def bench(copies: int, images: bool, work: Path) -> None:
     mode = "images" if images else "tables only"
 
     def plain():
-        for b in boards:
-            scan_board(b, rules, out_dir=work / "plain" / b.name, images=images)
+        plain_scans(boards, work / "plain", images)
+
+    def plain_in_two():
+        with ProcessPoolExecutor(2, mp_context=get_context("spawn")) as pool:
+            list(pool.map(plain_scans, [boards[0::2], boards[1::2]], [work / "plain-2"] * 2, [images] * 2))
 
     in_tasks = {}
 
@@ -63,10 +76,12 @@ def bench(copies: int, images: bool, work: Path) -> None:
     for workers in (1, 2):
         results[f"batch {workers}"] = timed(lambda: batch(workers, work / f"out-{workers}-{mode}"))
     results["re-run 2"] = timed(lambda: batch(2, work / f"out-2-{mode}", force=False))
+    results["plain in 2 processes"] = timed(plain_in_two)
     load = max(load, os.getloadavg()[0])
     start_1 = cluster_start(1)
     print(f"{copies} boards, {mode}: " + ", ".join(f"{k} {v:.1f} s" for k, v in results.items())
-          + f"; speed-up 1 -> 2 workers {results['batch 1'] / results['batch 2']:.2f}x; "
+          + f"; speed-up 1 -> 2 workers {results['batch 1'] / results['batch 2']:.2f}x "
+          f"(plain, 1 -> 2 processes: {results['plain'] / results['plain in 2 processes']:.2f}x); "
           f"inside the tasks: 1 worker {in_tasks[1, True]:.1f} s, 2 workers {in_tasks[2, True]:.1f} s; "
           f"per board, batch (1 worker) minus plain {(results['batch 1'] - results['plain']) / copies:+.2f} s, "
           f"of which outside the tasks and the cluster start ({start_1:.1f} s) "
