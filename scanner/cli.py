@@ -11,7 +11,7 @@ from scanner.errors import InputError, InternalError, printable
 from scanner.workspace import Stopped, raise_stopped
 
 #: subcommands, each a module in scanner.commands exposing a click command named ``command``
-COMMAND_MODULES = ("inspect", "section", "scan")
+COMMAND_MODULES = ("inspect", "section", "scan", "compare", "waive")
 
 
 @click.group(context_settings={"help_option_names": ["-h", "--help"]})

@@ -15,6 +15,7 @@ from scanner.outputs import write_file
 from scanner.report import names, palette
 from scanner.report.marks import PASS_SHOWN_TOP, geometric_label, shown_findings
 from scanner.scoring.results import CAUTION, SCHEMA, Hotspot, ScanResult, VictimTotal
+from scanner.signoff.page_sections import changes_section, waiver_mark_text, waivers_section
 
 PAGE_FILE = "report.html"
 TABLE_FILES = ("report.json", "hotspots.csv")
@@ -135,7 +136,10 @@ def _header(result: ScanResult, folder: _Folder) -> Markup:
     data = tag("p", ["Data: "] + _joined(files, ", "), class_="muted") if files else Markup("")
     sections = [("board", "Board"), ("rules", "Rules"), ("maps", "Maps"), ("findings", "Findings")]
     sections += [("geometric", "Geometric limits")] if result.geometric else []
-    sections += [("details", "Top findings"), ("victims", "Victims"), ("assumptions", "Assumptions")]
+    sections += [("details", "Top findings"), ("victims", "Victims")]
+    sections += [("waivers", "Waivers")] if result.waivers else []
+    sections += [("changes", "Changes")] if result.comparison is not None else []
+    sections += [("assumptions", "Assumptions")]
     return Markup(tag("h1", f"Crosstalk report: {result.board.get('name', '')}") + verdict
                   + tag("p", [tag("strong", "Caution. "), CAUTION], class_="caution")
                   + tag("nav", [link(f"#{a}", t) for a, t in sections]) + data)
@@ -246,6 +250,11 @@ def _fix_text(h: Hotspot) -> Markup:
     return Markup(tag("br").join(esc(o) for o in out))
 
 
+def _status(finding) -> Markup:
+    """The status badge, with the finding's waiver mark under it."""
+    return two_line(badge(finding.status), waiver_mark_text(finding.waiver)) if finding.waiver else badge(finding.status)
+
+
 def _used(h: Hotspot) -> Markup:
     """Share of budget used, with the exact simulation's share under it where one was run."""
     used = f"{100 * h.budget_used:.0f} %"
@@ -274,7 +283,7 @@ def _findings(result: ScanResult, folder: _Folder) -> Markup:
     for h in result.hotspots:
         detail = folder.has(names.crop_file(h.rank)) or folder.has(names.wave_file(h.rank))
         rank = link(f"#finding-{h.rank}", str(h.rank)) if detail else str(h.rank)
-        rows.append([rank, badge(h.status), two_line(h.victim, h.victim_class),
+        rows.append([rank, _status(h), two_line(h.victim, h.victim_class),
                      two_line(h.aggressor, h.aggressor_class), two_line("+".join(h.layers), h.structure),
                      num(h.coupled_length_mm, 4), num(h.min_spacing_mm),
                      two_line(f"{h.next_mv:.4g}", f"{h.next_pct:.3g} %"), two_line(f"{h.fext_mv:.4g}", f"{h.fext_pct:.3g} %"),
@@ -299,7 +308,7 @@ def _geometric(result: ScanResult, folder: _Folder) -> Markup:
     rows = []
     for i, g in enumerate(result.geometric):
         maps = [link(f"{stems[name]}.png", name) for name in g.layers if folder.has(f"{stems.get(name, '')}.png")]
-        rows.append([geometric_label(i), badge(g.status), two_line(g.victim, g.victim_class),
+        rows.append([geometric_label(i), _status(g), two_line(g.victim, g.victim_class),
                      two_line(g.aggressor, g.aggressor_class), "+".join(g.layers), num(g.parallel_mm, 4),
                      num(g.max_parallel_mm, 4), num(g.within_spacing_mm), num(g.min_spacing_mm),
                      two_line(f"{g.x_mm:.2f}", f"{g.y_mm:.2f}"), tag("span", _joined(maps, " · "), class_="views")])
@@ -346,7 +355,9 @@ def _victims(victims: list[VictimTotal]) -> Markup:
         rows.append([v.net, v.net_class, badge(v.status), f"{v.next_worst_mv:.4g} ({v.next_worst_pct:.3g} %)",
                      f"{v.fext_worst_mv:.4g} ({v.fext_worst_pct:.3g} %)", f"{v.next_rss_pct:.3g} / {v.fext_rss_pct:.3g}",
                      f"{v.next_budget_mv:.4g} / {v.fext_budget_mv:.4g}", f"{100 * v.budget_used:.0f} %",
-                     ", ".join(aggressors)])
+                     ", ".join(aggressors) + (f"; waived: {', '.join(v.waived_aggressors)} ({', '.join(v.waivers)}), "
+                                              f"{100 * v.budget_used_with_waived:.0f} % with them"
+                                              if v.waived_aggressors else "")])
     return Markup(tag("h2", f"Victims, all aggressors together ({len(victims)})", id="victims")
                   + tag("p", "Worst case: peak magnitudes added; RSS: root-sum-square. The budget check uses the "
                              "basis named in the rules.", class_="muted")
@@ -399,7 +410,8 @@ def render_page(result: ScanResult, out_dir: str | Path) -> str:
     """The page's HTML; links only to files that exist in ``out_dir``."""
     folder = _Folder(Path(out_dir))
     body = (_header(result, folder) + _board(result) + _rules(result) + _maps(result, folder)
-            + _findings(result, folder) + _geometric(result, folder) + _details(result, folder) + _victims(result.victims) + _assumptions(result)
+            + _findings(result, folder) + _geometric(result, folder) + _details(result, folder) + _victims(result.victims)
+            + Markup(waivers_section(result.waivers)) + Markup(changes_section(result.comparison)) + _assumptions(result)
             + tag("footer", f"nearfar {_version()}; data schema {SCHEMA}; run {result.run_id}, {result.created}.",
                   class_="muted"))
     head = Markup(tag("meta", charset="utf-8") + tag("meta", name="viewport", content="width=device-width, initial-scale=1")
