@@ -45,7 +45,7 @@ def comparison_summary(c: dict) -> str:
 
 
 def render_comparison(c: dict, top: int = 40) -> str:
-    lines = [f"nearfar compare", f"  before: {_side_text(c['old'])}", f"  now:    {_side_text(c['new'])}"]
+    lines = ["nearfar compare", f"  before: {_side_text(c['old'])}", f"  now:    {_side_text(c['new'])}"]
     lines += [f"warning: {w}" for w in c["warnings"]]
     lines += ["", comparison_summary(c), ""]
     findings = c["findings"]
