@@ -32,8 +32,8 @@ def _waiver_reasons(result: ScanResult, ids: list[str]) -> str:
 
 def _victim_case(suite: ET.Element, result: ScanResult, v) -> str:
     case = _case(suite, f"nearfar.victims.{v.net_class}", v.net)
-    used = f"{100 * v.budget_used:.0f} % of its budget (NEXT {v.next_worst_mv:.4g} mV of {v.next_budget_mv:.4g}, " \
-           f"FEXT {v.fext_worst_mv:.4g} mV of {v.fext_budget_mv:.4g})"
+    used = (f"{100 * v.budget_used:.0f} % of its budget ({v.next_worst_mv:.4g} mV NEXT against "
+            f"{v.next_budget_mv:.4g} mV, {v.fext_worst_mv:.4g} mV FEXT against {v.fext_budget_mv:.4g} mV)")
     waived = f"; waived aggressors {', '.join(v.waived_aggressors)}" if v.waived_aggressors else ""
     if v.status == "fail":
         failure = ET.SubElement(case, "failure", type="over-budget", message=_text(f"{v.net} uses {used}"))

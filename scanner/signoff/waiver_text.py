@@ -1,6 +1,8 @@
 """Waivers on the terminal: each waiver's state, and the findings a lapsed waiver no longer covers."""
 from __future__ import annotations
 
+#: findings with a lapsed waiver listed on the terminal
+LAPSED_SHOWN = 10
 STATE_TEXT = {"in-force": "in force", "expired": "EXPIRED", "exceeded": "EXCEEDED", "unused": "unused"}
 
 
@@ -22,7 +24,9 @@ def waiver_lines(result) -> list[str]:
             lines.append(f"  {'':<{width}}            {w['note']}")
     lapsed = [h for h in result.hotspots if h.waiver and not h.waived]
     lapsed += [g for g in result.geometric if g.waiver and not g.waived]
-    for f in lapsed:
+    for f in lapsed[:LAPSED_SHOWN]:
         label = f"#{f.rank}" if hasattr(f, "rank") else "geometric"
         lines.append(f"  {label} {f.victim} <- {f.aggressor}: {f.waiver['note']}")
+    if len(lapsed) > LAPSED_SHOWN:
+        lines.append(f"  … {len(lapsed) - LAPSED_SHOWN} more findings with a lapsed waiver (report.json, 'waiver')")
     return lines
