@@ -150,6 +150,7 @@ class ScanResult:
     coverage: dict = field(default_factory=dict)
     #: reasons part of the board was not checked; any makes the verdict "incomplete" unless it fails
     unchecked: list[str] = field(default_factory=list)
+    impedance: object = None  # scanner.scoring.impedance.ImpedanceCheck
     #: this run's id and time, in report.json and named by every other file of the run
     run_id: str = field(default_factory=new_run_id)
     created: str = field(default_factory=utc_now)
@@ -161,6 +162,7 @@ class ScanResult:
     @property
     def worst_status(self) -> str:
         statuses = [v.status for v in self.victims] + [g.status for g in self.geometric if not g.waived]
+        statuses += [s.status for s in self.impedance.stretches] if self.impedance is not None else []
         for s in ("fail", "warn"):
             if s in statuses:
                 return s
@@ -168,7 +170,8 @@ class ScanResult:
 
     @property
     def verdict(self) -> str:
-        """fail (some victim or limit over budget), incomplete (nothing over, but not all checked), pass."""
+        """fail (some victim or limit over budget, or a stretch off its impedance target), incomplete (nothing
+        over, but not all checked), pass."""
         if self.worst_status == "fail":
             return "fail"
         return "incomplete" if self.unchecked else "pass"
@@ -195,5 +198,6 @@ class ScanResult:
             "hotspots": [h.to_dict() for h in self.hotspots],
             "victims": [v.to_dict() for v in self.victims],
             "geometric": [g.to_dict() for g in self.geometric],
+            "impedance": None if self.impedance is None else self.impedance.to_dict(),
             "waivers": list(self.waivers),
         } | ({} if self.comparison is None else {"comparison": self.comparison})
