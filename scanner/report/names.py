@@ -25,9 +25,21 @@ def layer_stems(layer_names: list[str]) -> dict[str, str]:
     return stems
 
 
+BUDGET_FILE = "budget-used.png"
+STACKUP_FILE = "stackup.png"
+
+
 def crop_file(rank: int) -> str:
     return f"hotspot-{rank}.png"
 
 
 def wave_file(rank: int) -> str:
     return f"wave-{rank}.png"
+
+
+def section_file(rank: int) -> str:
+    return f"section-{rank}.png"
+
+
+def whatif_file(rank: int) -> str:
+    return f"whatif-{rank}.png"
