@@ -2,6 +2,7 @@
 from __future__ import annotations
 
 import json
+from pathlib import Path
 
 import click
 import numpy as np
@@ -11,6 +12,8 @@ from scanner.physics import (WEAK_COUPLING_LIMIT, Soldermask, coupling_coefficie
 from scanner.units import M_PER_MM, S_PER_NS
 
 _POSITIVE = click.FloatRange(min=0, min_open=True)
+PLOT_FORMATS = (".png", ".svg", ".pdf")
+PLOT_DPI = 150
 
 
 def _build(widths, spacings, copper, height_below, er_below, height_above, er_above, planes, mask, mask_er):
@@ -122,8 +125,10 @@ def render_section(data: dict) -> str:
 @click.option("--receiver", type=click.Choice(["matched", "high_z"]), default="matched", show_default=True,
               help="Victim far-end termination.")
 @click.option("--json", "as_json", is_flag=True, help="Print the figures as JSON.")
+@click.option("--plot", "plot_path", type=click.Path(dir_okay=False, writable=True),
+              help="Also draw the cross-section to scale into this file (.png, .svg or .pdf).")
 def command(widths, spacings, copper, height_below, er_below, height_above, er_above, planes, mask, mask_er,
-            aggressor, victim, rise_time_ns, length_mm, swing_v, receiver, as_json):
+            aggressor, victim, rise_time_ns, length_mm, swing_v, receiver, as_json, plot_path):
     """Solve one cross-section: L and C matrices, impedances, Kb and Kf, and NEXT/FEXT for a coupled length."""
     section = _build(widths, spacings, copper, height_below, er_below, height_above, er_above, planes, mask, mask_er)
     count = len(section.conductors)
@@ -131,5 +136,23 @@ def command(widths, spacings, copper, height_below, er_below, height_above, er_a
         raise click.UsageError(f"--aggressor and --victim must be two different traces among 0..{count - 1}")
     if length_mm is not None and rise_time_ns is None:
         raise click.UsageError("--length needs --rise-time")
+    if plot_path is not None and Path(plot_path).suffix.lower() not in PLOT_FORMATS:
+        raise click.UsageError(f"--plot: give a file name ending in {', '.join(PLOT_FORMATS)}")
     data = section_data(section, aggressor, victim, rise_time_ns, length_mm, swing_v, receiver)
+    if plot_path is not None:
+        _plot(section, data, Path(plot_path))
     click.echo(json.dumps(data, indent=2) if as_json else render_section(data))
+
+
+def _plot(section, data: dict, path: Path) -> None:
+    """The sketch of ``section`` with its impedance and coupling in the heading."""
+    from scanner.report.figsave import save  # matplotlib loads only when a plot is asked for
+    from scanner.report.sectionplot import section_figure
+
+    count = data["traces"]
+    roles = {data["aggressor"]: "aggressor", data["victim"]: "victim"} if data["kb"] is not None else {}
+    labels = [f"{roles[i]} ({i})" if i in roles else f"trace {i}" for i in range(count)]
+    coupling = (f", Kb {data['kb']:.4f}, Kf {data['kf_s_per_m'] * 1e12:.1f} ps/m" if data["kb"] is not None else "")
+    heading = f"Cross-section: {count} trace{'s' if count != 1 else ''}, to scale"
+    detail = f"Z0 {data['z0_ohm'][0]:.1f} ohm, eps_eff {data['eps_eff'][0]:.3f}{coupling}"
+    save(section_figure(section, heading, detail, labels, roles), path, PLOT_DPI)

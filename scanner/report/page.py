@@ -22,7 +22,7 @@ from scanner.report.boardmap import board_map, map_script
 from scanner.report.copper import board_bounds
 from scanner.report.html import Markup, badge, esc, facts, joined, lines, link, num, table, tag, two_line
 from scanner.report.marks import geometric_label
-from scanner.report.pagefacts import assumptions
+from scanner.report.pagefacts import TERMINATION_WORDS, assumptions
 from scanner.report.pagestyle import style
 from scanner.report.view import (FixItem, detail_hotspots, fix_brief, fix_first, fix_lines, is_shown_in_table,
                                  verdict_and_coverage)
@@ -282,7 +282,7 @@ def _details(result: ScanResult, folder: _Folder) -> Markup:
             continue
         info = facts([("status", badge(h.status)), ("aggressor model", h.aggressor_model),
                       ("edge", f"{h.rise_time_ns:g} ns 10–90 %, {h.swing_v:g} V"),
-                      ("victim's ends", h.termination), ("largest backward coefficient", num(h.kb_max)),
+                      ("victim's ends", TERMINATION_WORDS.get(h.termination, h.termination)), ("largest backward coefficient", num(h.kb_max)),
                       ("strong coupling", "yes: weak-coupling figures are less accurate" if h.strong_coupling
                        else "no"), ("fix", lines(fix_lines(h)) if h.fix else "none needed")]
                      + ([("exact line simulation", f"NEXT {h.exact['next_mv']:.4g} mV, FEXT {h.exact['fext_mv']:.4g} "

@@ -27,7 +27,7 @@ from scanner.rules import receiver_gain
 GRID_POINTS = 1200
 FIGURE_WIDTH_IN = 8.0
 #: height of one receiver scenario's panel, and of the title and bottom margins (inches)
-PANEL_IN, HEADER_IN, FOOTER_IN = 2.9, 0.65, 0.1
+PANEL_IN, HEADER_IN, FOOTER_IN = 2.9, 0.8, 0.1
 ODD_MODE = "differential (odd mode)"
 
 
@@ -211,7 +211,8 @@ def wave_figure(waves: FindingWaveforms, hotspot: Hotspot) -> Figure:
     fig.text(0.09, 1 - 0.3 / height_in, fit_line(f"#{hotspot.rank}  {hotspot.victim} (victim) ← {hotspot.aggressor} "
                                                  "(aggressor)", room_in, 10), fontsize=10, color=palette.INK, ha="left")
     fig.text(0.09, 1 - 0.5 / height_in, fit_line(f"{hotspot.coupled_length_mm:.4g} mm on {'+'.join(hotspot.layers)} "
-                                                  f"({hotspot.structure}), {hotspot.swing_v:g} V swing; near end: the victim's "
-                                                  f"end nearer the aggressor's driver{note}",
+                                                  f"({hotspot.structure}), {hotspot.swing_v:g} V swing{note}",
                                                   room_in, 7.5), fontsize=7.5, color="#6b6357", ha="left")
+    fig.text(0.09, 1 - 0.66 / height_in, "Near end: the victim's end nearer the aggressor's driver; far end: the "
+             "other end.", fontsize=7.5, color="#6b6357", ha="left")
     return fig
