@@ -38,7 +38,7 @@ def bench(name: str, board_path: Path, rules_path: Path | None) -> None:
             started = time.perf_counter()
             files = write_images(result, board, out)
             images_s = time.perf_counter() - started
-            write_page(result, out)
+            write_page(result, out, board)
             page_s = time.perf_counter() - started - images_s
         print(f"{name}: {len(files)} images in {images_s:.2f} s, page {page_s:.2f} s "
               f"({len(result.hotspots)} findings listed, {sum(len(l.segments) for l in board.layers)} segments, "

@@ -32,7 +32,7 @@ from scanner.report.whatif import what_if, what_if_figure
 from scanner.scoring.results import Hotspot, ScanResult
 
 OVERLAY_DPI = 150
-DETAIL_DPI = 130
+DETAIL_DPI = 110
 BOARD_VIEW_IN = ((11.0, 8.0), (5.0, 3.5))  # largest and smallest axes box (inches)
 CROP_VIEW_IN = ((8.5, 5.5), (6.5, 3.2))
 #: the worst piece is shaded this many points wider than its pair of traces

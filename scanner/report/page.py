@@ -24,8 +24,7 @@ from scanner.report.html import Markup, badge, esc, facts, joined, lines, link, 
 from scanner.report.marks import geometric_label
 from scanner.report.pagefacts import TERMINATION_WORDS, assumptions
 from scanner.report.pagestyle import style
-from scanner.report.view import (FixItem, detail_hotspots, fix_brief, fix_first, fix_lines, is_shown_in_table,
-                                 verdict_and_coverage)
+from scanner.report.view import FixItem, detail_hotspots, fix_first, fix_lines, is_shown_in_table, verdict_and_coverage
 from scanner.scoring.results import CAUTION, SCHEMA, Hotspot, ScanResult, VictimTotal
 
 PAGE_FILE = "report.html"
@@ -198,7 +197,7 @@ def _finding_rows(hotspots: list[Hotspot], details: dict[int, int], on_map: bool
                      two_line(f"{h.next_mv:.4g}", f"{h.next_pct:.3g} %"),
                      two_line(f"{h.fext_mv:.4g}", f"{h.fext_pct:.3g} %"),
                      two_line(f"{h.next_budget_mv:.4g}", f"{h.fext_budget_mv:.4g}"), _used(h),
-                     two_line(f"{h.x_mm:.2f}", f"{h.y_mm:.2f}"), lines(fix_brief(h)) if h.fix else "–"])
+                     two_line(f"{h.x_mm:.2f}", f"{h.y_mm:.2f}"), lines(fix_lines(h, brief=True)) if h.fix else "–"])
         attrs.append({"class_": f"row-{h.status}", "data_run": h.run if on_map else None})
     return rows, attrs
 

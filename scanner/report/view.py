@@ -128,34 +128,18 @@ def layer_references(result: ScanResult) -> dict[str, str]:
     return out
 
 
-def fix_lines(h: Hotspot) -> list[str]:
-    """The finding's fix guidance in a designer's words, one way out per line."""
+def fix_lines(h: Hotspot, brief: bool = False) -> list[str]:
+    """The finding's fix guidance, one way out per line: in a designer's words, or ``brief`` for a table cell."""
     fix = h.fix or {}
-    out = []
-    if fix.get("spacing_needed_mm") is not None:
-        out.append(f"widen the gap to ≥ {fix['spacing_needed_mm']:.3g} mm along the run")
-    if fix.get("max_length_mm") is not None:
-        out.append(f"{'or ' if out else ''}shorten the side-by-side length to ≤ {fix['max_length_mm']:.3g} mm")
     alternative = fix.get("alternative_layer") or {}
-    if alternative.get("layer"):
-        used = alternative.get("budget_used")
-        share = f": {100 * used:.0f} % of budget there" if used is not None else ""
-        out.append(f"{'or ' if out else ''}move it to {alternative['layer']} ({alternative.get('structure', '')}{share})")
-    if fix.get("note"):
-        out.append(fix["note"])
-    return out
-
-
-def fix_brief(h: Hotspot) -> list[str]:
-    """The fix guidance in table form: a gap, a length, a layer and the budget used there."""
-    fix = h.fix or {}
+    used = alternative.get("budget_used")
+    ways = [(fix.get("spacing_needed_mm"), "gap ≥ {:.3g} mm", "widen the gap to ≥ {:.3g} mm along the run"),
+            (fix.get("max_length_mm"), "length ≤ {:.3g} mm", "shorten the side-by-side length to ≤ {:.3g} mm"),
+            (alternative.get("layer"), "on {}" + (f": {100 * used:.0f} %" if used is not None else ""),
+             "move it to {} (" + alternative.get("structure", "")
+             + (f": {100 * used:.0f} % of budget there)" if used is not None else ")"))]
     out = []
-    if fix.get("spacing_needed_mm") is not None:
-        out.append(f"gap ≥ {fix['spacing_needed_mm']:.3g} mm")
-    if fix.get("max_length_mm") is not None:
-        out.append(f"length ≤ {fix['max_length_mm']:.3g} mm")
-    alternative = fix.get("alternative_layer") or {}
-    if alternative.get("layer"):
-        used = alternative.get("budget_used")
-        out.append(f"on {alternative['layer']}" + (f": {100 * used:.0f} %" if used is not None else ""))
-    return out
+    for value, short, words in ways:
+        if value is not None:
+            out.append(short.format(value) if brief else ("or " if out else "") + words.format(value))
+    return out + ([fix["note"]] if fix.get("note") and not brief else [])

@@ -178,17 +178,11 @@ def _panel(ax, t_ns, waves: FindingWaveforms, scenario: Scenario, hotspot: Hotsp
         ax.set_xlabel("time after the aggressor edge starts (ns)", fontsize=8)
     ax.set_ylabel("victim noise (mV)", fontsize=8)
     ax.tick_params(labelsize=7)
-    edge_ax = ax.twinx()
-    edge_ax.plot(t_ns, waves.aggressor_v, color=palette.EDGE, linestyle=(0, (2, 2)), linewidth=1.1,
-                 label=f"aggressor edge, {hotspot.rise_time_ns:g} ns 10–90 % (right axis)")
-    edge_top = 1.25 * hotspot.swing_v
-    edge_ax.set_ylim(edge_top * low / high, edge_top)  # zero volts level with zero millivolts
-    edge_ax.set_ylabel("aggressor (V)", fontsize=8, color=palette.EDGE)
-    edge_ax.tick_params(labelsize=7, colors=palette.EDGE)
-    handles, labels = ax.get_legend_handles_labels()
-    more_h, more_l = edge_ax.get_legend_handles_labels()
-    ax.legend(handles + more_h, labels + more_l, fontsize=6.5, loc="upper right", frameon=True, framealpha=0.85,
-              edgecolor="#e6e1d7")
+    # the aggressor's edge as a shape on the same axes: zero level with zero, its swing at 80 % of the top
+    edge_scale = 0.8 * high / hotspot.swing_v
+    ax.plot(t_ns, waves.aggressor_v * edge_scale, color=palette.EDGE, linestyle=(0, (2, 2)), linewidth=1.1,
+            label=f"aggressor edge (shape), 0 to {hotspot.swing_v:g} V, {hotspot.rise_time_ns:g} ns 10–90 %")
+    ax.legend(fontsize=6.5, loc="upper right", frameon=True, framealpha=0.85, edgecolor="#e6e1d7")
 
 
 def wave_figure(waves: FindingWaveforms, hotspot: Hotspot) -> Figure:
@@ -200,7 +194,7 @@ def wave_figure(waves: FindingWaveforms, hotspot: Hotspot) -> Figure:
     t_ns = waves.time_s * 1e9
     for i, scenario in enumerate(panels):
         bottom = (FOOTER_IN + (len(panels) - 1 - i) * PANEL_IN + 0.35) / height_in
-        ax = fig.add_axes((0.09, bottom, 0.8, (PANEL_IN - 0.7) / height_in))
+        ax = fig.add_axes((0.09, bottom, 0.87, (PANEL_IN - 0.7) / height_in))
         _panel(ax, t_ns, waves, scenario, hotspot, last=i == len(panels) - 1)
     note = ""
     if hotspot.aggressor_model == ODD_MODE:
