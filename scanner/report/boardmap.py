@@ -11,8 +11,8 @@ about a run comes from the JSON block beside the SVG (``id="map-data"``), which
 is inert data, escaped for an HTML script element.
 
 Markers exist for every listed finding's run and every broken geometric limit;
-runs whose findings all pass and rank below ``PASS_SHOWN_TOP`` are hidden until a
-table row selects them.
+runs whose findings all pass and rank below ``PASS_SHOWN_TOP`` (marker and traces)
+are hidden until a table row selects them.
 """
 from __future__ import annotations
 
@@ -74,7 +74,7 @@ def polygons_path(geometries) -> str:
     return "".join(tokens.tolist())
 
 
-def _layer_group(board: Board, index: int, runs_here: list[tuple[int, str, TraceSegments]]) -> str:
+def _layer_group(board: Board, index: int, runs_here: list[tuple[int, str, TraceSegments, bool]]) -> str:
     layer = board.layers[index]
     paths = []
     shapes = layer.shapes
@@ -90,9 +90,10 @@ def _layer_group(board: Board, index: int, runs_here: list[tuple[int, str, Trace
         for w in np.unique(widths):
             d = segments_path(segments.select(widths == w))
             paths.append(f'<path class="cu-trace" stroke-width="{_numbers([max(w, 0.01)])[0]}" d="{d}"/>')
-    for run, role, s in runs_here:
+    for run, role, s, quiet in runs_here:
         width = _numbers([max(float(np.max(s.width)), 0.01)])[0]
-        paths.append(f'<path class="run-{role}" data-run="{run}" style="--w:{width}px" d="{segments_path(s)}"/>')
+        paths.append(f'<path class="run-{role}{" quiet" if quiet else ""}" data-run="{run}" style="--w:{width}px" '
+                     f'd="{segments_path(s)}"/>')
     return f'<g class="layer side-{layer.side}" data-layer="{index}">' + "".join(paths) + "</g>"
 
 
@@ -190,7 +191,7 @@ def board_map(result: ScanResult, board: Board, bounds) -> tuple[str, str]:
             victim, aggressor = role_segments(result, board, carriers[run], k)
             for role, idx in (("aggressor", aggressor), ("victim", victim)):
                 if len(idx):
-                    per_layer[k].append((run, role, board.layers[k].segments.select(idx)))
+                    per_layer[k].append((run, role, board.layers[k].segments.select(idx), entry["quiet"]))
         entry["layer_names"] = [board.layers[k].name for k in layers]
         title = "\n".join(f"{it['label']} {it['victim']} ← {it['aggressor']}" for it in entry["items"])
         side = board.layers[int(result.runs.main_layer[run])].side

@@ -103,8 +103,8 @@ label.toggle {{ cursor: pointer; padding-bottom: 1px; }}
 .mark.st-warn text {{ fill: #a86a00; }}
 .mark.st-pass .shape {{ stroke: {s['pass']}; }}
 .mark.st-pass text {{ fill: {s['pass']}; }}
-.mark.quiet, .mark.off {{ display: none; }}
-.mark.quiet.sel {{ display: inline; }}
+.mark.quiet, .mark.off, .run-victim.quiet, .run-aggressor.quiet {{ display: none; }}
+.mark.quiet.sel, .run-victim.quiet.sel, .run-aggressor.quiet.sel {{ display: inline; }}
 .mark.sel .shape {{ fill: #ffe27a; stroke-width: 3.5px; }}
 .mark.sel text {{ font-size: 13px; }}
 @media (max-width: 900px) {{

@@ -62,7 +62,7 @@ def test_the_command_writes_every_image(report_dir, demo_scan):
     for name in expected:
         if name.endswith(".png"):
             image = matplotlib.image.imread(report_dir / name)
-            assert image.shape[0] > 300 and image.shape[1] > 600
+            assert image.shape[0] > 250 and image.shape[1] > 600
         else:
             root = ET.parse(report_dir / name).getroot()
             assert root.tag.endswith("svg")
