@@ -1,4 +1,5 @@
-"""The scan, stage by stage: board + rules -> environments -> net roles -> coupled runs -> scored findings.
+"""The scan, stage by stage: board + rules -> environments -> net roles -> coupled runs -> scored findings,
+then the impedance check and the per-layer impedance table.
 
 Each stage is one call with named inputs and outputs (see the stage packages' docstrings):
 ``board`` (layer environments, net roles), ``coupling`` (finder, runs, coefficients),
@@ -13,9 +14,11 @@ import numpy as np
 from scanner.board.layerstack import board_environments
 from scanner.board.model import Board
 from scanner.board.roles import assign_roles
+from scanner.coupling.layer_impedance import pair_pieces, signal_layer_table
 from scanner.coupling.stage import find_runs
 from scanner.rules import Rules
 from scanner.scoring.results import ScanResult
+from scanner.scoring.impedance import check_impedance
 from scanner.scoring.stage import build_result, score_runs
 
 Progress = Callable[[str], None]
@@ -31,7 +34,11 @@ def run_scan(board: Board, rules: Rules | None = None, progress: Progress | None
     coupled = find_runs(board, env, roles, rules.scan, reach_mm, say)
     say("scoring")
     scored = score_runs(board, rules, roles, env, coupled)
-    return build_result(board, rules, env, coupled, scored, list(env.warnings) + list(board.warnings))
+    pairs = pair_pieces(board, env.signal, roles.partner)
+    impedance = check_impedance(board, rules, roles, env, pairs)
+    return build_result(board, rules, env, coupled, scored,
+                        list(env.warnings) + list(board.warnings) + impedance.notes,
+                        signal_layer_table(board, env, pairs), impedance)
 
 
 def _plane_nets(board: Board, plane_layers) -> set[str]:

@@ -11,15 +11,21 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-from scanner.board.model import Board, Stackup, StackupLayer
+from scanner.board.model import Board, CopperLayer, CopperShapes, Holes, Stackup, StackupLayer, TraceSegments
 from scanner.errors import InputError
 
-#: stated default when nothing gives a stackup (typical FR-4 class build; common practice)
-DEFAULT_TOTAL_THICKNESS_MM = 1.6
+#: stated default when nothing gives a stackup: a typical symmetric FR-4 class build (common practice;
+#: the figures are typical fabricator values, from memory): 1.6 mm up to 12 copper layers, thicker above
+DEFAULT_TOTAL_THICKNESS_MM = ((12, 1.6), (18, 2.0), (None, 2.4))
 DEFAULT_OUTER_COPPER_MM = 0.035
 DEFAULT_INNER_COPPER_MM = 0.018
-DEFAULT_EPSILON_R = 4.2
+#: thin prepreg between each outer layer and its neighbour: one ply at 4 layers, a thinner one above
+DEFAULT_OUTER_PREPREG_MM = ((4, 0.2), (None, 0.1))
+DEFAULT_PREPREG_EPSILON_R = 4.1
+DEFAULT_CORE_EPSILON_R = 4.4
 DEFAULT_SOLDERMASK = (0.02, 3.8)
+#: permittivity taken for copper walked through when no laminate has been passed yet
+DEFAULT_EPSILON_R = DEFAULT_PREPREG_EPSILON_R
 
 
 @dataclass(frozen=True)
@@ -46,37 +52,93 @@ class LayerEnvironment:
 
 
 def default_stackup(copper_count: int) -> Stackup:
-    """A plain, evenly spaced build of ``copper_count`` layers, 1.6 mm overall, er 4.2."""
+    """A typical symmetric build of ``copper_count`` copper layers (stated as an assumption wherever it is used).
+
+    From the top: soldermask, outer copper, a thin prepreg, then cores and prepregs in turn (each core carries
+    two inner copper layers), a thin prepreg, outer copper, soldermask. Cores and inner prepregs share the
+    thickness left over equally. Up to three copper layers there is no prepreg: the dielectrics are cores.
+    """
     if copper_count < 1:
         raise InputError("board has no copper layers to build a stackup for")
+    outer, inner, laminate = _default_dielectrics(copper_count)
+    gaps = copper_count - 1
     sm_t, sm_er = DEFAULT_SOLDERMASK
-    copper_t = [DEFAULT_OUTER_COPPER_MM if i in (0, copper_count - 1) else DEFAULT_INNER_COPPER_MM
-                for i in range(copper_count)]
-    gaps = max(copper_count - 1, 1)
-    diel_t = (DEFAULT_TOTAL_THICKNESS_MM - 2 * sm_t - sum(copper_t)) / gaps
     layers = [StackupLayer("soldermask", "top mask", sm_t, sm_er)]
     for i in range(copper_count):
-        layers.append(StackupLayer("copper", f"copper {i + 1}", copper_t[i], None, i))
-        if i < copper_count - 1:
-            layers.append(StackupLayer("dielectric", f"dielectric {i + 1}", diel_t, DEFAULT_EPSILON_R))
-    layers.append(StackupLayer("soldermask", "bottom mask", sm_t, sm_er))
+        edge = i in (0, copper_count - 1)
+        layers.append(StackupLayer("copper", f"copper {i + 1}",
+                                   DEFAULT_OUTER_COPPER_MM if edge else DEFAULT_INNER_COPPER_MM, None, i))
+        if i == gaps:
+            break
+        if copper_count >= 4 and i in (0, gaps - 1):
+            layers.append(StackupLayer("dielectric", f"prepreg {i + 1}-{i + 2}", outer, DEFAULT_PREPREG_EPSILON_R))
+        elif copper_count < 4 or i % 2:
+            layers.append(StackupLayer("dielectric", f"core {i + 1}-{i + 2}", inner, DEFAULT_CORE_EPSILON_R))
+        else:
+            layers.append(StackupLayer("dielectric", f"prepreg {i + 1}-{i + 2}", inner, DEFAULT_PREPREG_EPSILON_R))
+    if copper_count == 1:
+        layers.append(StackupLayer("dielectric", "core", laminate, DEFAULT_CORE_EPSILON_R))
+    else:
+        layers.append(StackupLayer("soldermask", "bottom mask", sm_t, sm_er))
     return Stackup(tuple(layers), source="default")
 
 
+def describe_default(copper_count: int) -> str:
+    """The assumed build of ``default_stackup(copper_count)`` in one line, with its values."""
+    outer, inner, laminate = _default_dielectrics(copper_count)
+    total = _by_count(DEFAULT_TOTAL_THICKNESS_MM, copper_count)
+    sm_t, sm_er = DEFAULT_SOLDERMASK
+    core = f"(er {DEFAULT_CORE_EPSILON_R:g})"
+    if copper_count > 4:
+        build = (f"prepreg {outer:.3f} mm (er {DEFAULT_PREPREG_EPSILON_R:g}) under each outer layer, then cores "
+                 f"{core} and prepregs (er {DEFAULT_PREPREG_EPSILON_R:g}) of {inner:.3f} mm in turn")
+    elif copper_count == 4:
+        build = (f"prepreg {outer:.3f} mm (er {DEFAULT_PREPREG_EPSILON_R:g}) under each outer layer, a core of "
+                 f"{inner:.3f} mm {core} between")
+    else:
+        build = f"core{'s' if copper_count > 2 else ''} of {inner if copper_count > 1 else laminate:.3f} mm {core}"
+    copper = f"{DEFAULT_OUTER_COPPER_MM * 1000:.0f} µm" + (
+        f" outer, {DEFAULT_INNER_COPPER_MM * 1000:.0f} µm inner" if copper_count > 2 else "")
+    return (f"{copper_count} copper layer{'s' if copper_count > 1 else ''} in {total:g} mm: {build}; copper "
+            f"{copper}; soldermask {sm_t * 1000:.0f} µm (er {sm_er:g})")
+
+
+def _layers_text(count: int) -> str:
+    return f"{count} copper layer{'' if count == 1 else 's'}"
+
+
+def _default_dielectrics(copper_count: int) -> tuple[float, float, float]:
+    """(outer prepreg, inner dielectric, all laminate) thickness in mm for the default build."""
+    masks = 2 if copper_count > 1 else 1
+    copper = 2 * DEFAULT_OUTER_COPPER_MM + (copper_count - 2) * DEFAULT_INNER_COPPER_MM if copper_count > 1 \
+        else DEFAULT_OUTER_COPPER_MM
+    laminate = _by_count(DEFAULT_TOTAL_THICKNESS_MM, copper_count) - masks * DEFAULT_SOLDERMASK[0] - copper
+    gaps = copper_count - 1
+    if copper_count < 4:
+        return 0.0, laminate / max(gaps, 1), laminate
+    outer = _by_count(DEFAULT_OUTER_PREPREG_MM, copper_count)
+    return outer, (laminate - 2 * outer) / (gaps - 2), laminate
+
+
+def _by_count(table: tuple, copper_count: int) -> float:
+    """The value for ``copper_count`` from ((up to this many layers, value), ..., (None, value))."""
+    return next(value for most, value in table if most is None or copper_count <= most)
+
+
 def effective_stackup(board: Board, override: Stackup | None) -> tuple[Stackup, list[str]]:
-    """The stackup to use: the rules' override, else the board's, else the stated default."""
+    """The stackup to use: the override (a stackup file or the rules), else the board's, else the stated default."""
     warnings = []
     stackup = override or board.stackup
     if stackup is None:
         stackup = default_stackup(len(board.layers))
         warnings.append(
-            f"NO STACKUP GIVEN: assumed {len(board.layers)} copper layers evenly spaced in "
-            f"{DEFAULT_TOTAL_THICKNESS_MM} mm of er {DEFAULT_EPSILON_R} laminate; crosstalk figures "
-            "depend on it — give a job file or a [stackup] in the rules")
+            f"NO STACKUP GIVEN: assumed a typical symmetric build, {describe_default(len(board.layers))}; "
+            "crosstalk and impedance figures depend on it - give the real one with --stackup FILE (CSV or TOML) or [stackup] "
+            "in the rules, and check it with 'nearfar stackup'")
     n_copper = len(stackup.copper())
     if n_copper != len(board.layers):
-        raise InputError(
-            f"stackup ({stackup.source}) has {n_copper} copper layers but the board has {len(board.layers)}")
+        raise InputError(f"the stackup ({stackup.source}) has {_layers_text(n_copper)} but the board has "
+                         f"{_layers_text(len(board.layers))}", stackup.path)
     return stackup, warnings
 
 
@@ -106,6 +168,18 @@ def board_environments(board: Board, stackup_override: Stackup | None, named_pla
             warnings.append(f"layer {layer.name} has no reference plane on either side; not scanned")
     broadside = broadside_environments(board, stackup, envs, plane_layers)
     return BoardEnvironments(stackup, plane_layers, envs, broadside, tuple(warnings))
+
+
+def stackup_environments(stackup: Stackup, plane_layers) -> BoardEnvironments:
+    """The environments of a stackup on its own, without board files: copper layers take the stackup's names,
+    those in ``plane_layers`` (copper indices) are planes and the rest signal layers."""
+    count = len(stackup.copper())
+    layers = [CopperLayer(s.name, s.copper_index, "top" if s.copper_index == 0 else
+                          "bottom" if s.copper_index == count - 1 else "inner",
+                          "plane" if s.copper_index in plane_layers else "signal", "stackup", None,
+                          TraceSegments.empty(), CopperShapes.empty()) for s in stackup.copper()]
+    return board_environments(Board("stackup", stackup.path or stackup.source, "stackup", layers, [], Holes.empty()),
+                              stackup)
 
 
 def layer_environments(board: Board, stackup: Stackup, plane_layers: set[int]) -> dict[int, LayerEnvironment]:

@@ -1,4 +1,4 @@
-"""Figures to files: PNG, SVG (text kept as text, with hover titles) or PDF by the file name, written atomically."""
+"""Figures to files: PNG, SVG (text kept as text, with hover titles) or PDF by the file name."""
 from __future__ import annotations
 
 import io
@@ -10,7 +10,7 @@ from matplotlib.figure import Figure
 
 from xml.sax.saxutils import escape
 
-from scanner.outputs import write_atomic
+from scanner.outputs import write_file
 
 
 #: PNG compression level 1 saves time for slightly larger files (docs/performance.md)
@@ -26,18 +26,21 @@ class Picture:
     titles: dict[str, str] = field(default_factory=dict)
 
 
-def save(picture: Picture | Figure, path: Path, dpi: int) -> Path:
-    """Write a figure as PNG, SVG or PDF (from the file name), atomically and without time stamps; SVG keeps its
-    text as text."""
+def save(picture: Picture | Figure, path: Path, dpi: int, metadata: dict | None = None) -> Path:
+    """Write a figure as PNG, SVG or PDF (from the file name) and flush it to disk; SVG keeps its text as text.
+    Without ``metadata`` (matplotlib's per-format keys) the file carries no time stamp, so it is reproducible."""
     fig = picture.figure if isinstance(picture, Picture) else picture
     fmt = path.suffix.lstrip(".").lower()
+    options = dict(FORMAT_OPTIONS.get(fmt, {}))
+    if metadata is not None:
+        options["metadata"] = metadata
     buf = io.BytesIO()
     with matplotlib.rc_context({"svg.hashsalt": "nearfar", "svg.fonttype": "none"}):
-        fig.savefig(buf, format=fmt, dpi=dpi, facecolor=fig.get_facecolor(), **FORMAT_OPTIONS.get(fmt, {}))
+        fig.savefig(buf, format=fmt, dpi=dpi, facecolor=fig.get_facecolor(), **options)
     data = buf.getvalue()
     if fmt == "svg" and isinstance(picture, Picture) and picture.titles:
         data = with_titles(data, picture.titles)
-    return write_atomic(path, data)
+    return write_file(path, data)
 
 
 def with_titles(svg: bytes, titles: dict[str, str]) -> bytes:

@@ -6,7 +6,7 @@ distinct coupled runs (``scanner.report.view.detail_hotspots``), named by the ra
 of the finding shown, ``hotspot-<rank>.png``, ``wave-<rank>.png``,
 ``section-<rank>.png`` and ``whatif-<rank>.png``; ``budget-used.png`` and
 ``stackup.png``. Which findings the overlays mark is decided in
-``scanner.report.marks``. Every file is written atomically.
+``scanner.report.marks``. Every image names the run that drew it (``run_metadata``).
 """
 from __future__ import annotations
 
@@ -39,6 +39,14 @@ CROP_VIEW_IN = ((8.5, 5.5), (6.5, 3.2))
 WORST_HALO_PT = 5.0
 #: a run's traces on the layers other than its main one are drawn this opaque
 OTHER_LAYER_ALPHA = 0.5
+
+
+def run_metadata(result: ScanResult, fmt: str) -> dict:
+    """What an image says about the run that drew it: the run id (SVG ``dc:identifier``, PNG text ``nearfar-run``)
+    and the time."""
+    if fmt == "svg":
+        return {"Identifier": result.run_id, "Date": result.created}
+    return {"nearfar-run": result.run_id, "Creation Time": result.created}
 
 
 def _board_canvas(board: Board) -> overlay.Canvas:
@@ -192,20 +200,25 @@ def write_images(result: ScanResult, board: Board, out_dir: str | Path, top: int
     overlays.append((names.COMPOSITE_STEM, lambda: composite_figure(result, board, shown)))
     for stem, make in overlays:
         picture = make()
-        written += [save(picture, out_dir / f"{stem}.{fmt}", OVERLAY_DPI) for fmt in ("png", "svg")]
+        written += [save(picture, out_dir / f"{stem}.{fmt}", OVERLAY_DPI, run_metadata(result, fmt))
+                    for fmt in ("png", "svg")]
+    png = run_metadata(result, "png")
     for hotspot in detail_hotspots(result, top):
-        written.append(save(crop_figure(result, board, hotspot), out_dir / names.crop_file(hotspot.rank), DETAIL_DPI))
+        written.append(save(crop_figure(result, board, hotspot), out_dir / names.crop_file(hotspot.rank), DETAIL_DPI,
+                            png))
         waves = finding_waveforms(result, board, hotspot)
-        written.append(save(wave_figure(waves, hotspot), out_dir / names.wave_file(hotspot.rank), DETAIL_DPI))
+        written.append(save(wave_figure(waves, hotspot), out_dir / names.wave_file(hotspot.rank), DETAIL_DPI, png))
         section = hotspot_section(result, board, hotspot)
         if section is not None:
-            written.append(save(section_figure(*section), out_dir / names.section_file(hotspot.rank), DETAIL_DPI))
+            written.append(save(section_figure(*section), out_dir / names.section_file(hotspot.rank), DETAIL_DPI,
+                                png))
         sweeps = what_if(result, hotspot)
         if sweeps is not None:
             written.append(save(what_if_figure(sweeps, hotspot), out_dir / names.whatif_file(hotspot.rank),
-                                DETAIL_DPI))
+                                DETAIL_DPI, png))
     if result.victims:
-        written.append(save(budget_figure(victims_by_use(result), result.settings.get("budget_basis", "worst-case")), out_dir / names.BUDGET_FILE, DETAIL_DPI))
+        bars = budget_figure(victims_by_use(result), result.settings.get("budget_basis", "worst-case"))
+        written.append(save(bars, out_dir / names.BUDGET_FILE, DETAIL_DPI, png))
     if result.stackup.get("layers"):
-        written.append(save(stackup_figure(result), out_dir / names.STACKUP_FILE, DETAIL_DPI))
+        written.append(save(stackup_figure(result), out_dir / names.STACKUP_FILE, DETAIL_DPI, png))
     return written

@@ -7,8 +7,8 @@ plain inlined script); the findings over or near budget (passing ones folded
 away); close-ups of the top runs; then the assumptions, stackup and rules in a
 designer's words. Nothing is fetched from the network: styles and the script are
 inline, images are the files beside the page, linked by relative names and only
-where they exist. All text from the board and the rules is escaped. Written
-atomically, after report.json and hotspots.csv.
+where they exist. All text from the board and the rules is escaped. Written last,
+after report.json and hotspots.csv.
 """
 from __future__ import annotations
 
@@ -16,7 +16,7 @@ from importlib import metadata
 from pathlib import Path
 
 from scanner.board.model import Board
-from scanner.outputs import write_atomic
+from scanner.outputs import write_file
 from scanner.report import names
 from scanner.report.boardmap import board_map, map_script
 from scanner.report.copper import board_bounds
@@ -47,9 +47,12 @@ def _verdict(result: ScanResult) -> Markup:
     sm = result.summary
     victims = sm.get("victims", len(result.victims))
     broken = sum(1 for g in result.geometric if g.status == "fail")
+    off_target = len(result.impedance.stretches) if result.impedance is not None else 0
     if verdict.status == "fail":
         what = (f"{sm.get('victims_fail', 0)} of {victims} victims over their noise budget"
-                + (f", {broken} geometric limit{'s' if broken != 1 else ''} broken" if broken else "") + ".")
+                + (f", {broken} geometric limit{'s' if broken != 1 else ''} broken" if broken else "")
+                + (f", {off_target} stretch{'es' if off_target != 1 else ''} off the impedance target"
+                   if off_target else "") + ".")
     elif verdict.status == "incomplete":
         what = "Nothing checked is over budget, but part of the board was not checked (below)."
     else:
@@ -60,12 +63,13 @@ def _verdict(result: ScanResult) -> Markup:
     c = verdict.coverage
     checked = [f"{layer['name']} ({layer['reference']})" for layer in c.layers if layer["scanned"]]
     skipped = [f"{layer['name']}: {layer['reason']}" for layer in c.layers
-               if not layer["scanned"] and layer["reference"] != "plane"]
-    planes = [layer["name"] for layer in c.layers if layer["reference"] == "plane"]
+               if not layer["scanned"] and layer.get("role") != "plane"]
+    planes = [layer["name"] for layer in c.layers if layer.get("role") == "plane"]
     coverage = [("checked", f"{100 * c.scanned_trace_fraction:.1f} % of the signal-layer trace length"),
                 ("signal layers scanned", ", ".join(checked) or "none")]
     coverage += [("not scanned", "; ".join(skipped))] if skipped else []
     coverage += [("planes", ", ".join(planes))] if planes else []
+    coverage += [("not checked", "; ".join(result.unchecked))] if result.unchecked else []
     return tag("div", [tag("p", [tag("span", VERDICT_WORDS[verdict.status], class_=f"verdict-word v-{verdict.status}"),
                                  " ", tag("strong", what), " ", detail]),
                        facts(coverage)], class_="verdict", id="verdict", data_verdict=verdict.status)
@@ -74,8 +78,9 @@ def _verdict(result: ScanResult) -> Markup:
 def _header(result: ScanResult, folder: _Folder) -> Markup:
     files = [link(f, f) for f in TABLE_FILES if folder.has(f)]
     data = tag("p", ["Data: "] + joined(files, ", "), class_="muted") if files else Markup("")
-    sections = [("fix-first", "What to fix first"), ("maps", "Maps"), ("findings", "Findings"),
-                ("details", "Close-ups"), ("assumptions", "Assumptions, stackup and rules")]
+    sections = [("fix-first", "What to fix first"), ("maps", "Maps"), ("findings", "Findings")]
+    sections += [("impedance", "Impedance")] if result.impedance is not None and result.impedance.classes else []
+    sections += [("details", "Close-ups"), ("assumptions", "Assumptions, stackup and rules")]
     return Markup(tag("h1", f"Crosstalk report: {result.board.get('name', '')}") + _verdict(result)
                   + tag("p", [tag("strong", "Caution. "), CAUTION], class_="caution")
                   + tag("nav", joined([link(f"#{a}", t) for a, t in sections], " · ")) + data)
@@ -132,6 +137,9 @@ def _fix_first(result: ScanResult, folder: _Folder) -> Markup:
         parts.append(tag("div", table(["finding", "victim (class)", "budget used, all aggressors", "worst run",
                                        "fix for that run", "picture"], list(rows), class_="fix-first",
                                       numeric={2}, row_attrs=list(attrs)), class_="scroll"))
+    if result.impedance is not None and result.impedance.stretches:
+        parts.append(tag("p", [f"Also {len(result.impedance.stretches)} routed stretches are off their class's "
+                               "impedance target: ", link("#impedance", "see the impedance check"), "."]))
     if folder.has(names.BUDGET_FILE):
         parts.append(tag("figure", [link(names.BUDGET_FILE, tag("img", src=names.BUDGET_FILE, class_="bars",
                                                                  alt="Budget used per victim")),
@@ -228,6 +236,7 @@ def _findings(result: ScanResult, board: Board | None, folder: _Folder) -> Marku
                                      tag("div", table(FINDING_HEADERS, rows, class_="findings-pass",
                                                       numeric=FINDING_NUMERIC, row_attrs=attrs), class_="scroll")]))
     parts.append(_geometric(result, board is not None))
+    parts.append(_impedance(result))
     parts.append(_victims(result.victims))
     return Markup("".join(parts))
 
@@ -246,6 +255,30 @@ def _geometric(result: ScanResult, on_map: bool) -> Markup:
                   + tag("p", "Runs between two classes longer than the rules allow within a gap; G1, G2, … on the "
                              "maps.", class_="muted")
                   + tag("div", table(headers, rows, numeric={5, 6, 7, 8, 9}, row_attrs=attrs), class_="scroll"))
+
+
+def _impedance(result: ScanResult) -> Markup:
+    """Routed stretches outside their class's impedance target (only when some class sets one)."""
+    check = result.impedance
+    if check is None or not check.classes:
+        return Markup("")
+    targets = [[c.net_class, num(c.z0_target_ohm), num(c.zdiff_target_ohm), f"±{c.tolerance_pct:g} %",
+                num(c.checked_mm, 6), num(c.pair_checked_mm, 6), f"{c.stretches} ({num(c.outside_mm, 6)} mm)",
+                f"{c.short_stretches} ({num(c.short_mm, 6)} mm)", num(c.not_checked_mm, 6)] for c in check.classes]
+    rows = [[badge(x.status), x.net_class, x.net, x.kind, x.layer, num(x.length_mm, 4), num(x.width_mm),
+             num(x.gap_mm), num(x.z_ohm, 4), f"{x.target_ohm:g}", f"{x.deviation_pct:+.0f} %",
+             two_line(f"{x.x_mm:.2f}", f"{x.y_mm:.2f}")] for x in check.stretches]
+    return Markup(tag("h3", f"Impedance off target ({len(check.stretches)})", id="impedance")
+                  + tag("p", f"Traces of classes with an impedance target, solved at their own width and layer (pairs "
+                             f"also at their gap). Stretches shorter than {check.min_length_mm:g} mm (neck-downs at "
+                             "pads) are counted, not listed.", class_="muted")
+                  + tag("div", table(["class", "Z0 target Ω", "Zdiff target Ω", "tolerance", "traces checked mm",
+                                      "pairs checked mm", "off target", "shorter, not listed", "not checked mm"],
+                                     targets, numeric={1, 2, 4, 5, 8}), class_="scroll")
+                  + tag("div", table(["status", "class", "net", "kind", "layer", "length mm", "width mm", "gap mm",
+                                      "Z Ω", "target Ω", "off by", "x / y mm"], rows, numeric=set(range(5, 12)),
+                                     row_attrs=[{"class_": f"row-{x.status}"} for x in check.stretches]),
+                        class_="scroll"))
 
 
 def _victims(victims: list[VictimTotal]) -> Markup:
@@ -307,7 +340,8 @@ def render_page(result: ScanResult, out_dir: str | Path, board: Board | None = N
     body = (_header(result, folder) + _fix_first(result, folder) + _maps(result, board, folder)
             + _findings(result, board, folder) + _details(result, folder)
             + assumptions(result, folder.has(names.STACKUP_FILE))
-            + tag("footer", f"nearfar {_version()}; data schema {SCHEMA}.", class_="muted"))
+            + tag("footer", f"nearfar {_version()}; data schema {SCHEMA}; run {result.run_id}, {result.created}.",
+                  class_="muted"))
     if board is not None:
         body += tag("script", Markup(map_script()))
     head = Markup(tag("meta", charset="utf-8") + tag("meta", name="viewport", content="width=device-width, initial-scale=1")
@@ -317,4 +351,4 @@ def render_page(result: ScanResult, out_dir: str | Path, board: Board | None = N
 
 def write_page(result: ScanResult, out_dir: str | Path, board: Board | None = None) -> Path:
     """Write report.html into ``out_dir`` (atomically)."""
-    return write_atomic(Path(out_dir) / PAGE_FILE, render_page(result, out_dir, board))
+    return write_file(Path(out_dir) / PAGE_FILE, render_page(result, out_dir, board))

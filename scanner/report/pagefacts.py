@@ -116,7 +116,7 @@ def _board(result: ScanResult) -> Markup:
     for layer in b.get("layers", []):
         name = layer.get("name")
         checked = coverage.get(name, {})
-        role = "plane" if layer.get("kind") == "plane" else references.get(name, "signal")
+        role = "plane" if checked.get("role", layer.get("kind")) == "plane" else references.get(name, "signal")
         rows.append([name, layer.get("side"), role, KIND_SOURCE_WORDS.get(layer.get("kind_source"),
                                                                          layer.get("kind_source")),
                      "yes" if checked.get("scanned") else f"no: {checked.get('reason')}",
@@ -137,7 +137,23 @@ def _stackup(result: ScanResult, has_drawing: bool) -> Markup:
     return Markup(tag("h3", f"Stackup, from {STACKUP_WORDS.get(st.get('source'), st.get('source', 'unknown'))}",
                       id="stackup") + drawing
                   + tag("details", [tag("summary", "The stackup as a table"),
-                                    table(["", "name", "thickness mm", "εr"], rows, numeric={2, 3})]))
+                                    table(["", "name", "thickness mm", "εr"], rows, numeric={2, 3})])
+                  + _signal_layers(st))
+
+
+def _signal_layers(st: dict) -> Markup:
+    """Each scanned layer's cross-section and impedances at the board's own width and pair gap."""
+    rows = [[e.get("name", name), e.get("structure"), ", ".join(e.get("references", [])) or "–",
+             num(e.get("height_mm")), num(e.get("height_second_mm")), num(e.get("width_mm")), num(e.get("z0_ohm")),
+             num(e.get("pair_width_mm")), num(e.get("gap_mm")), num(e.get("zdiff_ohm")),
+             "the board's pairs" if e.get("gap_source") == "pairs" else "assumed equal to the width"]
+            for name, e in st.get("signal_layers", {}).items()]
+    headers = ["signal layer", "structure", "references", "height mm", "to 2nd plane mm", "width mm", "Z0 Ω",
+               "pair width mm", "gap mm", "Zdiff Ω", "pair gap from"]
+    return Markup(tag("h4", "Scanned layers and their impedance")
+                  + tag("p", "At each layer's most used trace width and differential-pair gap, from the same field "
+                             "solver; compare with the fabricator's impedance table.", class_="muted")
+                  + tag("div", table(headers, rows, numeric=set(range(3, 10))), class_="scroll"))
 
 
 def _rules(result: ScanResult) -> Markup:

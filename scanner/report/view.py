@@ -2,8 +2,6 @@
 
 The page and the images read findings, victims and the scan's coverage only
 through these functions, so a change in the records' shape is met here.
-``verdict_and_coverage`` stands in for the scan's own verdict and coverage
-until the result carries them.
 """
 from __future__ import annotations
 
@@ -20,7 +18,7 @@ class Coverage:
     """How much of the board the scan checked."""
 
     scanned_trace_fraction: float
-    layers: list[dict]  # name, scanned, reference, reason
+    layers: list[dict]  # name, scanned, role ("signal" | "plane"), reference, reason
 
 
 @dataclass(frozen=True)
@@ -41,30 +39,10 @@ class FixItem:
     geometric_index: int | None = None
 
 
-def _layer_coverage(result: ScanResult) -> Coverage:
-    """Per copper layer whether it was scanned; the share of signal-layer trace length scanned."""
-    scanned = result.stackup.get("signal_layers", {})
-    layers, total, checked = [], 0.0, 0.0
-    for layer in result.board.get("layers", []):
-        name, env = layer.get("name"), scanned.get(layer.get("name"))
-        if layer.get("kind") == "plane":
-            layers.append({"name": name, "scanned": False, "reference": "plane", "reason": "a reference plane"})
-            continue
-        length = float(layer.get("trace_length_mm") or 0.0)
-        total += length
-        checked += length if env is not None else 0.0
-        layers.append({"name": name, "scanned": env is not None, "reference": env and env.get("structure"),
-                       "reason": None if env is not None else "no reference plane or stackup found for it"})
-    return Coverage(checked / total if total > 0 else 1.0, layers)
-
-
 def verdict_and_coverage(result: ScanResult) -> Verdict:
-    """Fail when anything is over budget or breaks a limit; incomplete when signal-layer traces went
-    unscanned; pass otherwise. Derived from ``worst_status`` and the scanned layers."""
-    coverage = _layer_coverage(result)
-    if result.worst_status == "fail":
-        return Verdict("fail", coverage)
-    return Verdict("incomplete" if coverage.scanned_trace_fraction < 1.0 else "pass", coverage)
+    """The scan's verdict and what it checked, as the page shows them."""
+    c = result.coverage or {}
+    return Verdict(result.verdict, Coverage(float(c.get("scanned_trace_fraction", 1.0)), list(c.get("layers", []))))
 
 
 def worst_runs(result: ScanResult) -> dict[str, Hotspot]:
@@ -108,23 +86,14 @@ def is_shown_in_table(h: Hotspot) -> bool:
 
 
 def layer_references(result: ScanResult) -> dict[str, str]:
-    """Per scanned signal layer: its structure and the nearest plane layer(s) it refers to ("stripline
-    between L02 and L04", "microstrip over L02")."""
-    layers = result.board.get("layers", [])
-    planes = [k for k, layer in enumerate(layers) if layer.get("kind") == "plane"]
+    """Per scanned signal layer: its structure and the plane layer(s) it refers to ("stripline between L02 and
+    L04", "microstrip over L02")."""
     out = {}
-    for i, layer in enumerate(layers):
-        env = result.stackup.get("signal_layers", {}).get(layer.get("name"))
-        if env is None:
-            continue
-        above = [(i - k, layers[k]["name"]) for k in planes if k < i][-1:]
-        below = [(k - i, layers[k]["name"]) for k in planes if k > i][:1]
-        structure = env.get("structure", "")
-        if structure == "stripline" and above and below:
-            out[layer["name"]] = f"stripline between {above[0][1]} and {below[0][1]}"
-        else:
-            nearest = sorted(above + below)
-            out[layer["name"]] = f"{structure} over {nearest[0][1]}" if nearest else structure
+    for name, row in result.stackup.get("signal_layers", {}).items():
+        refs = list(row.get("references") or [])
+        structure = row.get("structure", "")
+        out[name] = (f"{structure} between {refs[0]} and {refs[1]}" if len(refs) == 2 else
+                     f"{structure} over {refs[0]}" if refs else structure)
     return out
 
 

@@ -1,4 +1,6 @@
-"""Signal-layer environments from a stackup."""
+"""Signal-layer environments from a stackup, and the default stackup."""
+import dataclasses
+
 import pytest
 
 from scanner.board.model import Board, CopperLayer, CopperShapes, Holes, TraceSegments
@@ -39,15 +41,33 @@ def test_signal_copper_between_trace_and_plane_counts_as_dielectric():
     assert envs[0].toward_plane[1] == (0.035, 4.2)
 
 
-def test_default_stackup_is_stated_and_matches_thickness():
-    s = default_stackup(12)
-    assert s.source == "default" and len(s.copper()) == 12
-    assert s.total_thickness_mm == pytest.approx(1.6)
+@pytest.mark.parametrize("count,total_mm", [(2, 1.6), (4, 1.6), (6, 1.6), (8, 1.6), (12, 1.6), (14, 2.0)])
+def test_default_stackup_is_a_symmetric_build_with_thin_outer_prepregs(count, total_mm):
+    s = default_stackup(count)
+    assert s.source == "default" and len(s.copper()) == count
+    assert s.total_thickness_mm == pytest.approx(total_mm)
+    layers = [(l.kind, round(l.thickness_mm, 9), l.epsilon_r) for l in s.layers]
+    assert layers == layers[::-1]  # symmetric about the middle
+    dielectrics = [l for l in s.layers if l.kind == "dielectric"]
+    assert all(l.thickness_mm > 0.05 for l in dielectrics)
+    if count >= 4:
+        outer, inner = dielectrics[0], dielectrics[1:-1]
+        # thin prepregs next to the outer layers, cores inside (typical build: common practice)
+        assert outer.name.startswith("prepreg") and all(outer.thickness_mm <= l.thickness_mm for l in inner)
+        assert [l.name.split()[0] for l in inner][::2] == ["core"] * ((len(inner) + 1) // 2)
+
+
+def test_default_stackup_is_stated_with_its_values():
     board = _board(["signal"] * 4)
     used, warnings = effective_stackup(board, None)
     assert used.source == "default" and "NO STACKUP" in warnings[0]
+    for value in ("1.6 mm", "prepreg 0.200 mm", "core of 1.054 mm", "er 4.4", "35 µm", "--stackup"):
+        assert value in warnings[0]
 
 
-def test_copper_count_mismatch_is_an_input_error():
-    with pytest.raises(InputError):
-        effective_stackup(_board(["signal"] * 4), _six_layer())
+def test_copper_count_mismatch_is_an_input_error_with_both_counts():
+    stack = dataclasses.replace(_six_layer(), path="build.csv")
+    with pytest.raises(InputError) as exc:
+        effective_stackup(_board(["signal"] * 4), stack)
+    assert exc.value.path == "build.csv"
+    assert "6 copper layers" in exc.value.message and "board has 4 copper layers" in exc.value.message
