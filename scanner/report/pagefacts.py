@@ -28,7 +28,7 @@ TERMINATION_WORDS = {"high-z-receiver": "high-impedance receiver: noise arriving
 #: settings described in the sentences of ``_scan_sentences``; any other setting is listed by name
 DESCRIBED = {"search_distance_mm", "search_distance_source", "min_coupled_length_mm", "angle_tolerance_deg",
              "run_gap_mm", "budget_basis", "differential_aggressor", "broadside_layer_pairs", "cross_section_solves",
-             "warn_fraction", "list_floor", "auto_diff_pairs"}
+             "warn_fraction", "list_floor", "auto_diff_pairs", "impedance_min_length_mm"}
 
 
 def _budget_text(c: dict, kind: str) -> str:
@@ -37,6 +37,12 @@ def _budget_text(c: dict, kind: str) -> str:
         return f"{mv:g} mV"
     pct = c.get(f"{kind}_budget_pct")
     return "no limit" if pct is None else f"{pct:g} % of the swing"
+
+
+def _impedance_target(c: dict) -> str:
+    parts = [f"{label} {c[key]:g} Ω" for key, label in (("z0_target_ohm", "Z0"), ("zdiff_target_ohm", "Zdiff"))
+             if c.get(key) is not None]
+    return f"{', '.join(parts)} ±{c.get('impedance_tolerance_pct', 10.0):g} %" if parts else "none"
 
 
 def _scan_sentences(result: ScanResult) -> list[str]:
@@ -62,6 +68,9 @@ def _scan_sentences(result: ScanResult) -> list[str]:
     if "auto_diff_pairs" in scan:
         out.append("Differential pairs are " + ("also recognised from net names (such as _P and _N endings)."
                                                  if scan["auto_diff_pairs"] else "only those the rules name."))
+    if "impedance_min_length_mm" in scan:
+        out.append(f"Stretches off their impedance target shorter than {scan['impedance_min_length_mm']:g} mm "
+                   "(neck-downs at pads) are counted but not listed.")
     pairs = s.get("broadside_layer_pairs") or []
     out.append("Coupling across layers was checked between " + ", ".join(pairs) + " (no plane between them)."
                if pairs else "No two signal layers face each other without a plane between, so coupling stays "
@@ -159,9 +168,11 @@ def _signal_layers(st: dict) -> Markup:
 def _rules(result: ScanResult) -> Markup:
     r = result.rules
     classes = r.get("classes", []) + ([r["default_class"]] if r.get("default_class") else [])
+    targets = any(c.get("z0_target_ohm") is not None or c.get("zdiff_target_ohm") is not None for c in classes)
     class_rows = [[c.get("name"), ", ".join(c.get("patterns", [])), f"{num(c.get('rise_time_ns'))} ns",
                    f"{num(c.get('swing_v'))} V", _budget_text(c, "next"), _budget_text(c, "fext"),
-                   TERMINATION_WORDS.get(c.get("termination"), c.get("termination"))] for c in classes]
+                   TERMINATION_WORDS.get(c.get("termination"), c.get("termination"))]
+                  + ([_impedance_target(c)] if targets else []) for c in classes]
     pair_rows = []
     for rule in r.get("class_pairs", []):
         what = []
@@ -179,7 +190,8 @@ def _rules(result: ScanResult) -> Markup:
                   + tag("ul", [tag("li", sentence) for sentence in _scan_sentences(result)])
                   + tag("h4", "Net classes")
                   + tag("div", table(["class", "nets", "edge (10–90 %)", "swing", "near-end noise allowed",
-                                      "far-end noise allowed", "victim's ends"], class_rows), class_="scroll")
+                                      "far-end noise allowed", "victim's ends"]
+                                     + (["impedance target"] if targets else []), class_rows), class_="scroll")
                   + (tag("h4", "Between classes") + table(["aggressor class", "victim class", "rule"], pair_rows)
                      if pair_rows else Markup(""))
                   + facts(extra))

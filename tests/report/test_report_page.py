@@ -124,7 +124,7 @@ def test_fix_first_starts_with_the_victim_most_over_budget(report_dir, demo_scan
 def test_settings_are_described_in_words(report_dir):
     text = " ".join("".join(read((report_dir / "report.html").read_text(encoding="utf-8")).text).split())
     for raw in ("auto diff pairs", "search distance mm", "min coupled length mm", "True", "False", "list floor",
-                "high-z-receiver"):
+                "high-z-receiver", "impedance min length mm", "warn fraction"):
         assert raw not in text
     assert "count as neighbours where their edges come within" in text
 
