@@ -128,6 +128,7 @@ class ScanSettings:
     auto_diff_pairs: bool = True
     #: stretches outside an impedance target shorter than this are counted, not listed (pad neck-downs)
     impedance_min_length_mm: float = 1.0
+    skip_layers: tuple[str, ...] = ()  # copper layer names left out of the search (the verdict is then incomplete)
 
 
 @dataclass(frozen=True)
@@ -185,6 +186,7 @@ _SCAN_KEYS = {
     "search_distance_mm": float, "min_coupled_length_mm": float, "angle_tolerance_deg": float,
     "warn_fraction": float, "list_floor": float, "budget_basis": str, "differential_aggressor": str, "auto_diff_pairs": bool,
     "impedance_min_length_mm": float,
+    "skip_layers": list,
 }
 _STACK_KEYS = {"kind": str, "name": str, "thickness_mm": float, "epsilon_r": float}
 _PAIR_KEYS = {
@@ -240,6 +242,11 @@ def parse_rules(doc: dict, source: str) -> Rules:
         raise bad("[scan] list_floor must be in [0, 1]")
     if "impedance_min_length_mm" in scan_kw and not 0 <= scan_kw["impedance_min_length_mm"] <= 1000:
         raise bad("[scan] impedance_min_length_mm must be in [0, 1000]")
+    if "skip_layers" in scan_kw:
+        names = scan_kw["skip_layers"]
+        if not all(isinstance(n, str) and n for n in names):
+            raise bad("[scan] skip_layers must be a list of copper layer names")
+        scan_kw["skip_layers"] = tuple(names)
     scan = ScanSettings(**scan_kw)
 
     classes = []

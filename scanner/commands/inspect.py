@@ -7,9 +7,11 @@ from pathlib import Path
 import click
 
 from scanner import load_board
-from scanner.board.layerstack import describe_default, effective_stackup
+from scanner.board.layerstack import board_environments, describe_default, effective_stackup
 from scanner.board.model import Board
+from scanner.board.references import describe_reference, plane_evidence
 from scanner.commands.options import stackup_option, stackup_override
+from scanner.errors import InputError
 from scanner.report.files import json_text
 
 #: faults quoted on the terminal (all of them are in --json)
@@ -19,6 +21,7 @@ SHOWN_FAULTS = 10
 def inspect_data(board: Board) -> dict:
     """The board summary as plain data (the ``--json`` output)."""
     netting = board.netting
+    references = layer_references(board)
     return {
         "name": board.name,
         "source": board.source,
@@ -28,6 +31,7 @@ def inspect_data(board: Board) -> dict:
             "kind_source": layer.kind_source, "file": layer.path, "segments": len(layer.segments),
             "shapes": len(layer.shapes), "trace_length_mm": round(layer.trace_length_mm, 3),
             "fill_ratio": None if layer.fill_ratio is None else round(layer.fill_ratio, 4),
+            "reference": references[layer.index][0], "reference_evidence": references[layer.index][1],
         } for layer in board.layers],
         "nets": len(board.nets),
         "holes": {"plated": int(board.holes.plated.sum()), "non_plated": int((~board.holes.plated).sum())},
@@ -51,6 +55,24 @@ def inspect_data(board: Board) -> dict:
     }
 
 
+def layer_references(board: Board) -> list[tuple[str, str | None]]:
+    """Per copper layer, what a scan without rules would reference its traces to, and the evidence."""
+    try:
+        env = board_environments(board, None)
+    except InputError as exc:
+        return [(f"unknown: {exc.message}", None)] * len(board.layers)
+    out = []
+    for layer in board.layers:
+        if layer.index in env.signal:
+            words = describe_reference(board, env.signal[layer.index], env.plane_layers)
+            out.append((words.reference, words.evidence))
+        elif layer.index in env.plane_layers:
+            out.append(("reference plane, no traces on it", plane_evidence(board, layer.index, env.plane_layers)))
+        else:
+            out.append((f"not scanned: {env.skipped.get(layer.index)}", None))
+    return out
+
+
 def _fault(f) -> dict:
     return {"nets": list(f.nets), "x_mm": round(f.x_mm, 4), "y_mm": round(f.y_mm, 4), "layer": f.layer,
             "detail": f.detail}
@@ -69,6 +91,9 @@ def render_inspect(data: dict) -> str:
              Path(l["file"] or "").name) for l in data["layers"]]
     out += _table(("layer", "side", "use", "decided by", "traces", "length mm", "shapes", "poured", "file"),
                   rows, {4, 5, 6, 7})
+    out += ["", "references (from the board's stackup, or the default one; a rules file can change them):"]
+    out += [f"  {l['name']}: {l['reference']}" + (f" ({l['reference_evidence']})" if l["reference_evidence"] else "")
+            for l in data["layers"]]
     holes = data["holes"]
     out += ["", f"nets: {data['nets']}    holes: {holes['plated']} plated, {holes['non_plated']} non-plated"]
     if data["stackup"]:

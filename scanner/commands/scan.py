@@ -36,8 +36,18 @@ def command(board, rules_path, board_file, stackup_path, out_dir, top, as_json, 
     ODB++ job folder or .tgz), predict NEXT and FEXT on every victim, check the net-class budgets and rank
     the hotspots.
 
-    Exit status: 0 all victims within budget, 1 some victim over budget or a geometric limit broken,
-    2 bad input.
+    Every layer with traces is scanned: against its nearest plane, or, on a board without planes, against
+    the far side of the board (said in the report). The first line gives the verdict and how much signal
+    trace was checked.
+
+    \b
+    Exit status:
+      0  pass: the whole board checked, every victim within budget
+      1  fail: some victim over budget, or a geometric limit broken
+      2  bad input (one line naming the file)
+      3  incomplete: nothing over budget, but part of the board was not checked
+         (a layer skipped by the rules, trace without a net, an import gap)
+      4  internal error in nearfar
     """
     show_progress = not as_json and sys.stderr.isatty()
     started = time.perf_counter()

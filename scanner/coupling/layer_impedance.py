@@ -108,35 +108,9 @@ def signal_layer_table(board: Board, env: BoardEnvironments, pairs: CoupledPiece
         pair_width, gap, source = (found[1], found[0], GAP_FROM_PAIRS) if found else (width, width, GAP_ASSUMED)
         rows.append(SignalLayerRow(
             layer.name, layer.index, "dual stripline" if layer.index in dual else e.structure,
-            _references(board, env, layer.index), e.height_mm,
+            tuple(board.layers[k].name for k in e.reference.layers), e.height_mm,
             sum(t for t, _ in e.away) if args["planes"] == "both" else None, e.trace_thickness_mm,
             width, None if width is None else trace_impedance(width, **args),
             pair_width, gap, None if gap is None else source,
             None if gap is None else differential_impedance(pair_width, gap, **args)))
     return rows
-
-
-def _references(board: Board, env: BoardEnvironments, index: int) -> tuple[str, ...]:
-    """The nearest plane layer above and below the layer (where there is one), the nearer first."""
-    above = [k for k in env.plane_layers if k < index]
-    below = [k for k in env.plane_layers if k > index]
-    nearest = ([max(above)] if above else []) + ([min(below)] if below else [])
-    if len(nearest) < 2:
-        return tuple(board.layers[k].name for k in nearest)
-    top = _copper_depths(env)
-    up, down = nearest
-    # distance from the layer's copper to each plane's copper, as the environments measure it
-    gap_up = top[index][0] - top[up][1]
-    gap_down = top[down][0] - top[index][1]
-    first, second = (down, up) if gap_down <= gap_up else (up, down)
-    return board.layers[first].name, board.layers[second].name
-
-
-def _copper_depths(env: BoardEnvironments) -> dict[int, tuple[float, float]]:
-    """Per copper layer index, the depth (mm from the top of the stack) of its top and bottom face."""
-    depth, out = 0.0, {}
-    for item in env.stackup.layers:
-        if item.kind == "copper":
-            out[item.copper_index] = (depth, depth + item.thickness_mm)
-        depth += item.thickness_mm
-    return out

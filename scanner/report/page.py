@@ -19,12 +19,13 @@ from scanner.board.model import Board
 from scanner.outputs import write_file
 from scanner.report import names
 from scanner.report.boardmap import board_map, map_script
+from scanner.report.checked import board_notes, gap_lines, reference_lines, verdict_sentence
 from scanner.report.copper import board_bounds
 from scanner.report.html import Markup, badge, esc, facts, joined, lines, link, num, table, tag, two_line
 from scanner.report.marks import geometric_label
 from scanner.report.pagefacts import TERMINATION_WORDS, assumptions
 from scanner.report.pagestyle import style
-from scanner.report.view import FixItem, detail_hotspots, fix_first, fix_lines, is_shown_in_table, verdict_and_coverage
+from scanner.report.view import FixItem, detail_hotspots, fix_first, fix_lines, is_shown_in_table
 from scanner.scoring.results import CAUTION, SCHEMA, Hotspot, ScanResult, VictimTotal
 
 PAGE_FILE = "report.html"
@@ -43,36 +44,22 @@ class _Folder:
 
 
 def _verdict(result: ScanResult) -> Markup:
-    verdict = verdict_and_coverage(result)
+    """The verdict and what was checked, in the same sentences the terminal prints first
+    (``scanner.report.checked``), with the near-budget count and the impedance check beside them."""
+    verdict = result.verdict
+    word, _, why = verdict_sentence(result).partition(": ")
     sm = result.summary
-    victims = sm.get("victims", len(result.victims))
-    broken = sum(1 for g in result.geometric if g.status == "fail")
-    off_target = len(result.impedance.stretches) if result.impedance is not None else 0
-    if verdict.status == "fail":
-        what = (f"{sm.get('victims_fail', 0)} of {victims} victims over their noise budget"
-                + (f", {broken} geometric limit{'s' if broken != 1 else ''} broken" if broken else "")
-                + (f", {off_target} stretch{'es' if off_target != 1 else ''} off the impedance target"
-                   if off_target else "") + ".")
-    elif verdict.status == "incomplete":
-        what = "Nothing checked is over budget, but part of the board was not checked (below)."
-    else:
-        what = f"All {victims} victims within their noise budgets."
     near = sm.get("victims_warn", 0)
-    detail = (f"{near} near budget. " if near else "") + (f"{sm.get('findings', len(result.hotspots))} couplings "
-                                                           f"scored on {sm.get('coupled_runs', 0)} side-by-side runs.")
-    c = verdict.coverage
-    checked = [f"{layer['name']} ({layer['reference']})" for layer in c.layers if layer["scanned"]]
-    skipped = [f"{layer['name']}: {layer['reason']}" for layer in c.layers
-               if not layer["scanned"] and layer.get("role") != "plane"]
-    planes = [layer["name"] for layer in c.layers if layer.get("role") == "plane"]
-    coverage = [("checked", f"{100 * c.scanned_trace_fraction:.1f} % of the signal-layer trace length"),
-                ("signal layers scanned", ", ".join(checked) or "none")]
-    coverage += [("not scanned", "; ".join(skipped))] if skipped else []
-    coverage += [("planes", ", ".join(planes))] if planes else []
-    coverage += [("not checked", "; ".join(result.unchecked))] if result.unchecked else []
-    return tag("div", [tag("p", [tag("span", VERDICT_WORDS[verdict.status], class_=f"verdict-word v-{verdict.status}"),
-                                 " ", tag("strong", what), " ", detail]),
-                       facts(coverage)], class_="verdict", id="verdict", data_verdict=verdict.status)
+    off_target = len(result.impedance.stretches) if result.impedance is not None else 0
+    more = ([f"{off_target} stretch{'es' if off_target != 1 else ''} off the impedance target."] if off_target else [])
+    more += [f"{near} victims near budget."] if near else []
+    more.append(f"{sm.get('findings', len(result.hotspots))} couplings scored on {sm.get('coupled_runs', 0)} "
+                "side-by-side runs.")
+    gaps = tag("ul", [tag("li", line) for line in gap_lines(result)], class_="gaps") if result.unchecked else ""
+    refs = tag("ul", [tag("li", line) for line in reference_lines(result) + board_notes(result)], class_="refs")
+    return tag("div", [tag("p", [tag("span", VERDICT_WORDS[verdict], class_=f"verdict-word v-{verdict}"), " ",
+                                 tag("strong", why[:1].upper() + why[1:] + "."), " ", " ".join(more)]),
+                       gaps, refs], class_="verdict", id="verdict", data_verdict=verdict)
 
 
 def _header(result: ScanResult, folder: _Folder) -> Markup:

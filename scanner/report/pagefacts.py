@@ -8,7 +8,7 @@ from __future__ import annotations
 
 from scanner.report import names
 from scanner.report.html import Markup, esc, facts, link, num, table, tag
-from scanner.report.view import layer_references, verdict_and_coverage
+from scanner.report.view import coverage_layers, layer_references
 from scanner.scoring.results import CAUTION, ScanResult
 
 NETTING_WORDS = {
@@ -119,7 +119,7 @@ def _board(result: ScanResult) -> Markup:
                                                    f"{netting.get('netlist_points_total')}"))
         if netting.get("shorts") or netting.get("opens"):
             info.append(("shorts / opens against the netlist", f"{netting.get('shorts')} / {netting.get('opens')}"))
-    coverage = {c["name"]: c for c in verdict_and_coverage(result).coverage.layers}
+    coverage = coverage_layers(result)
     references = layer_references(result)
     rows = []
     for layer in b.get("layers", []):

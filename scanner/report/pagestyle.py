@@ -25,7 +25,9 @@ nav {{ margin: 0.6rem 0; }}
 a {{ color: {palette.VICTIM}; }}
 .caution {{ background: #fbf3e2; border-left: 5px solid {s['warn']}; padding: 0.6rem 0.9rem; }}
 .verdict {{ border: 1px solid #e6e1d7; border-radius: 6px; padding: 0.5rem 0.9rem; background: {palette.BOARD_FILL}; }}
-.verdict p {{ margin: 0.3rem 0 0.5rem; font-size: 1.02rem; }}
+.verdict p {{ margin: 0.3rem 0 0.4rem; font-size: 1.02rem; }}
+.verdict ul {{ margin: 0.2rem 0 0.3rem; padding-left: 1.3rem; }}
+.verdict ul.refs {{ font-size: 0.85rem; color: #5b544a; }}
 .verdict-word {{ display: inline-block; font-weight: 700; font-size: 1.15rem; padding: 0.05rem 0.6rem;
   border-radius: 4px; color: #fff; }}
 .v-fail {{ background: {s['fail']}; }}

@@ -1,6 +1,8 @@
 """The terminal report: settings in force, a compact ranked table, a summary line."""
 from __future__ import annotations
 
+from scanner.report.checked import (VERDICT_WORD, board_notes, checked_sentence, gap_lines, reference_lines,
+                                    verdict_sentence)
 from scanner.scoring.results import CAUTION, ScanResult
 
 STATUS_MARK = {"fail": "FAIL", "warn": "warn", "pass": "ok"}
@@ -12,13 +14,15 @@ def _trim(text: str, width: int) -> str:
 
 def render(result: ScanResult, top: int = 20) -> str:
     s = result.settings
-    lines = [f"nearfar scan of {result.board['name']} ({result.board['format']}, "
-             f"{len(result.board['layers'])} copper layers, {result.board['nets']} nets)",
-             f"stackup: {result.stackup['source']}{_path(result.stackup)}   rules: {result.rules['source']}   "
-             f"search distance {s['search_distance_mm']} mm ({s['search_distance_source']}), "
-             f"runs shorter than {s['min_coupled_length_mm']} mm ignored, "
-             f"parallel within {s['angle_tolerance_deg']}°",
-             "net classes (aggressor edge; victim budgets and termination):"]
+    lines = [verdict_sentence(result)] + gap_lines(result)
+    lines += [f"nearfar scan of {result.board['name']} ({result.board['format']}, "
+              f"{len(result.board['layers'])} copper layers, {result.board['nets']} nets)",
+              f"stackup: {result.stackup['source']}{_path(result.stackup)}   rules: {result.rules['source']}   "
+              f"search distance {_search_text(s)} ({s['search_distance_source']}), "
+              f"runs shorter than {s['min_coupled_length_mm']} mm ignored, "
+              f"parallel within {s['angle_tolerance_deg']}°"]
+    lines += [f"  {line}" for line in reference_lines(result) + board_notes(result)]
+    lines.append("net classes (aggressor edge; victim budgets and termination):")
     lines += [f"  {c['name']:<14} {', '.join(c['patterns'])[:40]:<40} tr {c['rise_time_ns']:g} ns, {c['swing_v']:g} V; "
               f"NEXT ≤ {_budget(c, 'next')}, FEXT ≤ {_budget(c, 'fext')}; {c['termination']}{_targets(c)}"
               for c in result.rules["classes"] + [result.rules["default_class"]]]
@@ -70,10 +74,18 @@ def render(result: ScanResult, top: int = 20) -> str:
     lines += _impedance_lines(result.impedance, top)
     sm = result.summary
     lines += ["", f"{sm['victims']} victims: {sm['victims_fail']} fail, {sm['victims_warn']} warn, "
-                  f"{sm['victims_pass']} pass — {sm['coupled_runs']} coupled runs scored. "
-                  f"Overall: {result.worst_status.upper()}",
+                  f"{sm['victims_pass']} pass — {sm['coupled_runs']} coupled runs scored; {checked_sentence(result)}. "
+                  f"Overall: {VERDICT_WORD[result.verdict]}",
               f"caution: {CAUTION}"]
     return "\n".join(lines)
+
+
+def _search_text(settings: dict) -> str:
+    """The search distance, or its range when the layers differ."""
+    values = sorted(set((settings.get("search_distance_by_layer_mm") or {}).values()))
+    if len(values) > 1:
+        return f"{values[0]:.3g}–{values[-1]:.3g} mm by layer"
+    return f"{settings['search_distance_mm']:g} mm"
 
 
 def _budget(c: dict, kind: str) -> str:

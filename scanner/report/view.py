@@ -14,20 +14,6 @@ DETAIL_TOP = 10
 
 
 @dataclass(frozen=True)
-class Coverage:
-    """How much of the board the scan checked."""
-
-    scanned_trace_fraction: float
-    layers: list[dict]  # name, scanned, role ("signal" | "plane"), reference, reason
-
-
-@dataclass(frozen=True)
-class Verdict:
-    status: str  # "pass" | "fail" | "incomplete"
-    coverage: Coverage
-
-
-@dataclass(frozen=True)
 class FixItem:
     """One failing victim with its worst run, or one broken geometric limit."""
 
@@ -39,10 +25,9 @@ class FixItem:
     geometric_index: int | None = None
 
 
-def verdict_and_coverage(result: ScanResult) -> Verdict:
-    """The scan's verdict and what it checked, as the page shows them."""
-    c = result.coverage or {}
-    return Verdict(result.verdict, Coverage(float(c.get("scanned_trace_fraction", 1.0)), list(c.get("layers", []))))
+def coverage_layers(result: ScanResult) -> dict[str, dict]:
+    """Each copper layer's part in the scan by name: scanned, role, reference, reason."""
+    return {row["name"]: row for row in (result.coverage or {}).get("layers", [])}
 
 
 def worst_runs(result: ScanResult) -> dict[str, Hotspot]:

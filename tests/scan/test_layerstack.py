@@ -5,7 +5,8 @@ import pytest
 
 from scanner.board.model import Board, CopperLayer, CopperShapes, Holes, TraceSegments
 from scanner.errors import InputError
-from scanner.board.layerstack import default_stackup, effective_stackup, layer_environments
+from scanner.board.layerstack import (LayerReference, board_environments, default_stackup, effective_stackup,
+                                      layer_environments)
 from tests.scan.synthetic import stackup_of
 
 
@@ -71,3 +72,31 @@ def test_copper_count_mismatch_is_an_input_error_with_both_counts():
         effective_stackup(_board(["signal"] * 4), stack)
     assert exc.value.path == "build.csv"
     assert "6 copper layers" in exc.value.message and "board has 4 copper layers" in exc.value.message
+
+
+def test_a_board_without_planes_is_referenced_to_its_far_side():
+    stack = stackup_of(("mask", 0.02, 3.8), 0.035, (1.53, 4.5), 0.035, ("mask", 0.02, 3.8))
+    envs = layer_environments(_board(["signal", "signal"]), stack, set())
+    for index, far in ((0, 1), (1, 0)):
+        env = envs[index]
+        assert env.structure == "microstrip" and env.reference == LayerReference("far side", (far,))
+        assert env.toward_plane == ((1.53, 4.5),) and env.soldermask == (0.02, 3.8)
+
+
+def test_an_inner_layer_keeps_the_far_surface_mask_as_a_flat_layer():
+    # L2 of four signal layers: referenced to L4 (1.235 mm away), L1's side reaches the surface through laminate
+    stack = stackup_of(("mask", 0.02, 3.8), 0.035, (0.2, 4.2), 0.035, (1.0, 4.5), 0.035, (0.2, 4.2), 0.035)
+    env = layer_environments(_board(["signal"] * 4), stack, set())[1]
+    assert env.reference.layers == (3,) and env.soldermask is None
+    assert env.away == ((0.2, 4.2), (0.035, 4.2), (0.02, 3.8))
+
+
+def test_one_copper_layer_has_nothing_to_reference_to():
+    assert layer_environments(_board(["signal"]), stackup_of(0.035, (1.5, 4.5)), set()) == {}
+
+
+def test_skipped_layers_are_listed_with_their_reason():
+    board = _board(["signal", "plane", "signal", "plane", "plane", "signal"])
+    board.stackup = _six_layer()
+    env = board_environments(board, None, skip_layers=("L3",))
+    assert set(env.signal) == {0, 5} and "skip_layers" in env.skipped[2]
