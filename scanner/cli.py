@@ -7,6 +7,7 @@ import sys
 import click
 
 from scanner.errors import InputError, printable
+from scanner.memory import OUT_OF_MEMORY_STATUS, out_of_memory_line
 
 #: subcommands, each a module in scanner.commands exposing a click command named ``command``
 COMMAND_MODULES = ("inspect", "section", "scan")
@@ -41,6 +42,9 @@ def main(argv=None) -> int:
     except click.ClickException as exc:
         exc.show()
         return _exit(exc.exit_code)
+    except MemoryError as exc:
+        click.echo(out_of_memory_line(exc), err=True)
+        return _exit(OUT_OF_MEMORY_STATUS)
     except OSError as exc:
         where = f"{exc.filename}: " if exc.filename else ""
         click.echo(f"nearfar: error: {printable(f'{where}{exc.strerror or exc}')}", err=True)

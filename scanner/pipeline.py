@@ -14,6 +14,7 @@ from scanner.board.layerstack import board_environments
 from scanner.board.model import Board
 from scanner.board.roles import assign_roles
 from scanner.coupling.stage import find_runs
+from scanner.memory import stage
 from scanner.rules import Rules
 from scanner.scoring.results import ScanResult
 from scanner.scoring.stage import build_result, score_runs
@@ -28,9 +29,12 @@ def run_scan(board: Board, rules: Rules | None = None, progress: Progress | None
     env = board_environments(board, rules.stackup, rules.planes)
     roles = assign_roles(board.nets, rules, _plane_nets(board, env.plane_layers))
     reach_mm = max([0.0] + [r.within_spacing_mm for r in rules.class_pairs if r.has_geometry])
-    coupled = find_runs(board, env, roles, rules.scan, reach_mm, say)
+    segments = sum(len(board.layers[i].segments) for i in env.signal)
+    with stage("finding coupled runs", f"{segments:,} trace segments on {len(env.signal)} signal layers"):
+        coupled = find_runs(board, env, roles, rules.scan, reach_mm, say)
     say("scoring")
-    scored = score_runs(board, rules, roles, env, coupled)
+    with stage("scoring", f"{len(coupled.runs):,} coupled runs"):
+        scored = score_runs(board, rules, roles, env, coupled)
     return build_result(board, rules, env, coupled, scored, list(env.warnings) + list(board.warnings))
 
 

@@ -16,6 +16,7 @@ from scipy.sparse import coo_matrix
 from scipy.sparse.csgraph import connected_components
 
 from scanner.board.model import NO_NET, Board, CopperLayer, Holes, NetFault, Netting
+from scanner.memory import stage
 
 #: synthetic names look like ``~L03@12.345,67.890`` (layer number, x, y in mm)
 SYNTHETIC_PREFIX = "~"
@@ -199,8 +200,10 @@ def assign_nets(board: Board, named_source: str = "gerber-x2") -> Board:
 
     ``named_source`` is the netting method reported when the copper already carries net names
     (the format that named it, e.g. "gerber-x2" or "odbpp-eda")."""
-    features = collect_features(board.layers)
-    feature_labels, hole_labels, trees = copper_islands(features, board.holes)
+    with stage("joining copper into nets", f"{board.segment_count:,} trace segments, "
+               f"{sum(len(layer.shapes) for layer in board.layers):,} shapes, {len(board.holes):,} holes"):
+        features = collect_features(board.layers)
+        feature_labels, hole_labels, trees = copper_islands(features, board.holes)
     n_islands = int(max(feature_labels.max(initial=-1), hole_labels.max(initial=-1)) + 1)
 
     names = list(board.nets)

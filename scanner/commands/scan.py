@@ -9,6 +9,7 @@ import click
 
 from scanner import load_board, scan
 from scanner.errors import InputError
+from scanner.memory import stage
 from scanner.report.files import report_json
 from scanner.report.folder import write_report_folder
 from scanner.report.text import render
@@ -52,7 +53,8 @@ def command(board, rules_path, board_file, out_dir, top, as_json, no_images):
 
     if out_dir is not None:
         progress(f"writing reports to {out_dir}")
-        write_report_folder(result, the_board, out_dir, images=not no_images)
+        with stage(f"writing reports to {out_dir}", f"{the_board.segment_count:,} trace segments"):
+            write_report_folder(result, the_board, out_dir, images=not no_images)
     if as_json:
         click.echo(report_json(result), nl=False)
     else:

@@ -18,6 +18,7 @@ from scanner.importers.apertures import (QUAD_SEGS, aperture_outline, aperture_p
 from scanner.importers.arcs import flatten_arcs
 from scanner.importers.diagnostics import FileWarnings
 from scanner.input_limits import OBJECTS, SEGMENTS, check_count, coordinate_problem, limit, read_input
+from scanner.memory import stage
 
 #: draws shorter than this (mm) are flashes in disguise and become pads
 ZERO_LENGTH_MM = 1e-6
@@ -245,13 +246,14 @@ def _translated(template: shapely.Geometry, x: np.ndarray, y: np.ndarray) -> np.
 
 def read_copper(path: Path, display_name: str | None = None) -> CopperArtwork:
     """Read one copper file into segments and shapes with net names (X2) where present."""
-    gerber, log = parse_gerber(path, display_name)
-    try:
-        return artwork_from_gerber(path, gerber, log)
-    except InputError as exc:
-        if exc.path is not None:
-            raise
-        raise InputError(exc.message, path=log.name, line=exc.line) from exc
+    with stage(f"reading {display_name or path}", f"{path.stat().st_size:,} bytes"):
+        gerber, log = parse_gerber(path, display_name)
+        try:
+            return artwork_from_gerber(path, gerber, log)
+        except InputError as exc:
+            if exc.path is not None:
+                raise
+            raise InputError(exc.message, path=log.name, line=exc.line) from exc
 
 
 def artwork_from_gerber(path: Path, gerber: GerberFile, log: FileWarnings) -> CopperArtwork:
