@@ -14,7 +14,7 @@ from pathlib import Path
 from scanner.board.model import Stackup, StackupLayer
 from scanner.errors import InputError, printable
 from scanner.input_limits import check_range, read_input
-from scanner.patterns import compile_patterns
+from scanner.patterns import compile_patterns, pattern_problem
 
 TERMINATIONS = ("matched", "high-z-receiver")
 DIFF_AGGRESSOR_MODELS = ("two-lines", "odd-mode")
@@ -239,6 +239,7 @@ def parse_rules(doc: dict, source: str) -> Rules:
         patterns = kw.pop("nets")
         if not patterns or not all(isinstance(p, str) and p for p in patterns):
             raise bad(f"{where} 'nets' must be a list of name patterns")
+        _check_patterns(patterns, f"{where} nets", bad)
         _check_choice(kw.get("termination"), TERMINATIONS, f"{where} termination", bad)
         if "next_budget_mv" in kw and "next_budget_pct" not in kw:
             kw["next_budget_pct"] = None
@@ -255,6 +256,7 @@ def parse_rules(doc: dict, source: str) -> Rules:
     power_nets = power.get("nets", [])
     if not isinstance(power_nets, list) or not all(isinstance(p, str) for p in power_nets):
         raise bad("[power] nets must be a list of name patterns")
+    _check_patterns(power_nets, "[power] nets", bad)
     replace = power.get("replace_defaults", False)
     if not isinstance(replace, bool):
         raise bad("[power] replace_defaults must be true or false")
@@ -271,6 +273,7 @@ def parse_rules(doc: dict, source: str) -> Rules:
             raise bad(f"[[diff_pair]] #{i + 1} patterns must be strings")
         if raw["positive"].count("*") != raw["negative"].count("*"):
             raise bad(f"[[diff_pair]] #{i + 1} positive and negative need the same number of '*'")
+        _check_patterns(raw.values(), f"[[diff_pair]] #{i + 1}", bad)
         pairs.append((raw["positive"], raw["negative"]))
 
     planes = doc.get("planes", [])
@@ -357,6 +360,12 @@ def _typed(raw, schema: dict, where: str, bad, source: str) -> dict:
             check_range(_RANGE_OF[key], value, f"{where} {key}", source)
         out[key] = value
     return out
+
+
+def _check_patterns(patterns, where: str, bad) -> None:
+    for pattern in patterns:
+        if (problem := pattern_problem(pattern)) is not None:
+            raise bad(f"{where}: {problem}")
 
 
 def _check_choice(value, choices, where, bad):
