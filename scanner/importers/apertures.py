@@ -13,7 +13,9 @@ from gerbonara.apertures import ApertureMacroInstance, PolygonAperture
 from gerbonara.utils import MM
 
 from scanner.importers import thermal
+from scanner.errors import InputError
 from scanner.importers.arcs import flatten_arcs, ring_points
+from scanner.importers.crossings import self_meetings
 from scanner.input_limits import range_problem
 
 thermal.register()
@@ -46,10 +48,37 @@ def arc_poly_polygon(outline, arc_centers) -> shapely.Geometry:
     ring = ring_points(points, cw, cx, cy)
     if len(ring) < 3:
         return shapely.Polygon()
+    _check_repair_cost(ring)
     poly = shapely.Polygon(ring)
     if not shapely.is_valid(poly):
         poly = shapely.make_valid(poly, method="structure", keep_collapsed=False)
     return poly
+
+
+#: outlines with at most this many vertices are checked and repaired by GEOS directly (cheap at any tangle)
+DIRECT_REPAIR_VERTICES = 256
+#: an outline may meet itself at most at this many points, or at as many as it has vertices if more: beyond,
+#: checking and repairing it (GEOS) would cost far more than linear time
+MIN_MEETINGS_REPAIRED = 10_000
+#: candidate edge pairs examined per vertex (plus a fixed allowance) before an outline counts as too tangled
+PAIRS_PER_VERTEX = 50
+PAIRS_ALLOWANCE = 5_000_000
+
+
+def _check_repair_cost(ring: np.ndarray) -> None:
+    """InputError for an outline that meets itself too often to be checked and repaired in about linear time."""
+    n = len(ring)
+    if n <= DIRECT_REPAIR_VERTICES:
+        return
+    most = max(MIN_MEETINGS_REPAIRED, n)
+    found, complete = self_meetings(ring, most, PAIRS_PER_VERTEX * n + PAIRS_ALLOWANCE)
+    where = f"outline of {n:,} points starting at ({ring[0, 0]:.4f}, {ring[0, 1]:.4f}) mm"
+    if not complete:
+        raise InputError(f"{where} is too tangled to check: its edges overlap in more than "
+                         f"{PAIRS_PER_VERTEX * n + PAIRS_ALLOWANCE:,} pairs")
+    if found > most:
+        raise InputError(f"{where} crosses or touches itself at more than {most:,} points; a real outline "
+                         "crosses itself a few times at most (the file is damaged or hostile)")
 
 
 def primitive_geometry(prim) -> shapely.Geometry:

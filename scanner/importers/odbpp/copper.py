@@ -13,6 +13,7 @@ from dataclasses import dataclass
 import numpy as np
 import shapely
 
+from scanner.errors import InputError
 from scanner.importers.apertures import QUAD_SEGS, swept_width_mm
 from scanner.importers.arcs import flatten_arcs
 from scanner.importers.gerber_copper import ZERO_LENGTH_MM, _cut_clear, _translated
@@ -92,6 +93,9 @@ def layer_artwork(table: FeatureTable, nets: np.ndarray, via: np.ndarray) -> Lay
     f = draws["feature"]
     zero = np.hypot(draws["x1"] - draws["x0"], draws["y1"] - draws["y0"]) < ZERO_LENGTH_MM
     trace = positive[f] & ~zero
+    if (thin := np.flatnonzero(trace & (draws["width"] <= 0))).size:
+        raise InputError(f"{len(thin):,} line(s) drawn with a symbol of zero size: a conductor needs a width",
+                         path=table.src.name, line=int(table.record_line[f[thin[0]]]))
 
     pads = table.pads
     dot = np.flatnonzero(zero)
