@@ -10,6 +10,8 @@ import os
 from dataclasses import dataclass
 from pathlib import Path
 
+import numpy as np
+
 from scanner.errors import InputError
 
 #: (environment variable, default): largest text input file, in MB (2**20 bytes)
@@ -140,3 +142,12 @@ def coordinate_problem(largest_mm: float) -> str | None:
         return None
     return (f"coordinate or size of {largest_mm:.6g} mm is beyond the limit of {MAX_COORDINATE_MM:g} mm; "
             "the file is damaged or its number format is wrong")
+
+
+def check_finite(values, what: str) -> None:
+    """InputError when any of ``values`` (an array) is not finite: a result the inputs drove beyond what the
+    numbers can hold (the check that turns silent NaN or infinity into one clear line)."""
+    bad = ~np.isfinite(np.asarray(values, dtype=np.float64))
+    if bad.any():
+        raise InputError(f"{what}: {int(bad.sum()):,} of {bad.size:,} values are not finite numbers; the inputs "
+                         "drive the model beyond what it can compute")

@@ -14,6 +14,7 @@ from scanner.board.layerstack import board_environments
 from scanner.board.model import Board
 from scanner.board.roles import assign_roles
 from scanner.coupling.stage import find_runs
+from scanner.input_limits import check_finite
 from scanner.memory import stage
 from scanner.rules import Rules
 from scanner.scoring.results import ScanResult
@@ -30,10 +31,13 @@ def run_scan(board: Board, rules: Rules | None = None, progress: Progress | None
     roles = assign_roles(board.nets, rules, _plane_nets(board, env.plane_layers))
     reach_mm = max([0.0] + [r.within_spacing_mm for r in rules.class_pairs if r.has_geometry])
     segments = sum(len(board.layers[i].segments) for i in env.signal)
-    with stage("finding coupled runs", f"{segments:,} trace segments on {len(env.signal)} signal layers"):
+    with stage("finding coupled runs", f"{segments:,} trace segments on {len(env.signal)} signal layers"), \
+            np.errstate(all="ignore"):
         coupled = find_runs(board, env, roles, rules.scan, reach_mm, say)
+    c = coupled.coefficients
+    check_finite(np.concatenate([c.kb, c.kf_s_per_m, c.velocity_m_per_s]), "coupling coefficients of the runs")
     say("scoring")
-    with stage("scoring", f"{len(coupled.runs):,} coupled runs"):
+    with stage("scoring", f"{len(coupled.runs):,} coupled runs"), np.errstate(all="ignore"):
         scored = score_runs(board, rules, roles, env, coupled)
     return build_result(board, rules, env, coupled, scored, list(env.warnings) + list(board.warnings))
 

@@ -13,6 +13,7 @@ from dataclasses import dataclass
 
 from scanner.board.model import Board, Stackup, StackupLayer
 from scanner.errors import InputError
+from scanner.input_limits import range_problem
 
 #: stated default when nothing gives a stackup (typical FR-4 class build; common practice)
 DEFAULT_TOTAL_THICKNESS_MM = 1.6
@@ -54,6 +55,9 @@ def default_stackup(copper_count: int) -> Stackup:
                 for i in range(copper_count)]
     gaps = max(copper_count - 1, 1)
     diel_t = (DEFAULT_TOTAL_THICKNESS_MM - 2 * sm_t - sum(copper_t)) / gaps
+    if range_problem("dielectric thickness", diel_t, "") is not None:
+        raise InputError(f"board has {copper_count} copper layers, too many to assume the default "
+                         f"{DEFAULT_TOTAL_THICKNESS_MM} mm stackup; give a job file or a [stackup] in the rules")
     layers = [StackupLayer("soldermask", "top mask", sm_t, sm_er)]
     for i in range(copper_count):
         layers.append(StackupLayer("copper", f"copper {i + 1}", copper_t[i], None, i))

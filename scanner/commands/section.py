@@ -8,7 +8,7 @@ import numpy as np
 
 from scanner.physics import (WEAK_COUPLING_LIMIT, Soldermask, coupling_coefficients, piecewise_peaks,
                              saturation_length_m, solve_cross_section, traces_on_layer, weak_coupling_holds)
-from scanner.input_limits import check_range
+from scanner.input_limits import check_finite, check_range
 from scanner.units import M_PER_MM, S_PER_NS
 
 
@@ -153,5 +153,9 @@ def command(widths, spacings, copper, height_below, er_below, height_above, er_a
         raise click.UsageError(f"--aggressor and --victim must be two different traces among 0..{count - 1}")
     if length_mm is not None and rise_time_ns is None:
         raise click.UsageError("--length needs --rise-time")
-    data = section_data(section, aggressor, victim, rise_time_ns, length_mm, swing_v, receiver)
+    with np.errstate(all="ignore"):
+        data = section_data(section, aggressor, victim, rise_time_ns, length_mm, swing_v, receiver)
+    check_finite(np.concatenate([np.ravel(v) for v in data.values()
+                                 if isinstance(v, (int, float, list)) and not isinstance(v, bool)]),
+                 "cross-section results")
     click.echo(json.dumps(data, indent=2) if as_json else render_section(data))

@@ -19,6 +19,7 @@ from scanner.importers.arcs import flatten_arcs
 from scanner.importers.diagnostics import FileWarnings
 from scanner.input_limits import OBJECTS, SEGMENTS, check_count, coordinate_problem, limit, read_input
 from scanner.memory import check_memory, stage
+from scanner.spatial_query import check_index_memory, query_all
 
 #: draws shorter than this (mm) are flashes in disguise and become pads
 ZERO_LENGTH_MM = 1e-6
@@ -465,7 +466,8 @@ def _cut_clear(geometry, orders, clear, clear_order):
     if not len(geometry):
         return geometry
     tree = shapely.STRtree(geometry)
-    clear_idx, dark_idx = tree.query(clear, predicate="intersects")
+    clear_idx, dark_idx = query_all(tree, clear, f"{len(clear):,} clear objects over {len(geometry):,} shapes",
+                                    keep=lambda q, t: shapely.intersects(clear[q], geometry[t]))
     earlier = orders[dark_idx] < clear_order[clear_idx]
     clear_idx, dark_idx = clear_idx[earlier], dark_idx[earlier]
     if not len(dark_idx):
@@ -483,11 +485,13 @@ def _warn_cleared_traces(seg, clear, clear_order, log):
     dark = seg["dark"]
     if not dark.any():
         return
+    check_index_memory(int(dark.sum()), BYTES_PER_PLACED_SHAPE, "traces under clear objects")
     lines = shapely.buffer(shapely.linestrings(
         np.stack([np.column_stack([seg["x0"][dark], seg["y0"][dark]]),
                   np.column_stack([seg["x1"][dark], seg["y1"][dark]])], axis=1)), seg["width"][dark] / 2, quad_segs=2)
     tree = shapely.STRtree(lines)
-    clear_idx, line_idx = tree.query(clear, predicate="intersects")
+    clear_idx, line_idx = query_all(tree, clear, f"{len(clear):,} clear objects over {len(lines):,} traces",
+                                    keep=lambda q, t: shapely.intersects(clear[q], lines[t]))
     hit = np.unique(line_idx[seg["order"][dark][line_idx] < clear_order[clear_idx]])
     if len(hit):
         log.add(f"{len(hit)} trace segment(s) drawn dark and later partly cleared by clear-polarity objects; "

@@ -3,10 +3,13 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
+import numpy as np
+
 from scanner.board.layerstack import BoardEnvironments
 from scanner.board.model import Board
 from scanner.board.roles import NetRoles
 from scanner.coupling.stage import RUN_GAP_MM, CoupledSet
+from scanner.input_limits import check_finite
 from scanner.rules import Rules
 from scanner.scoring.class_limits import GeometricFinding, check_geometric_limits
 from scanner.scoring.directions import DirectedRuns, directed_runs
@@ -32,6 +35,7 @@ def score_runs(board: Board, rules: Rules, roles: NetRoles, env: BoardEnvironmen
     runs = coupled.runs
     directed = directed_runs(rules, roles, runs, coupled.kept)
     noise = score_noise(rules, roles, directed, runs, coupled.coefficients)
+    check_finite(np.concatenate([noise.next_v, noise.fext_v, noise.used]), "predicted NEXT and FEXT")
     listed = listed_rows(noise, rules)
     c = coupled.coefficients
     fixes = fix_guidance(directed, listed[noise.status[listed] > 0], runs, coupled.lookup, board,

@@ -17,6 +17,7 @@ import shapely
 
 from scanner.errors import InputError
 from scanner.importers.apertures import arc_poly_polygon
+from scanner.importers.gerber_copper import MEMORY_CHECK_EVERY, check_parse_memory
 from scanner.importers.diagnostics import FileWarnings
 from scanner.importers.odbpp.symbols import Symbol
 from scanner.importers.odbpp.text import UNITS, JobFile, integer, number, read_lines, units_word
@@ -100,6 +101,8 @@ class _Parser:
             self.fail(f"polarity must be P or N, found {positive_token!r}", line)
         if len(self.positive) >= self.most_features:
             check_count(len(self.positive) + 1, OBJECTS, "features", self.src.name, line)
+        if len(self.positive) % MEMORY_CHECK_EVERY == MEMORY_CHECK_EVERY - 1:
+            check_parse_memory(len(self.positive) + 1, f"features of {self.src.name}")
         self.positive.append(positive_token == "P")
         self.record_line.append(line)
         self.attributes.append(attrs if self.keep_attributes else "")
