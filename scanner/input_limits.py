@@ -53,8 +53,8 @@ class PhysicalRange:
 
 #: every number nearfar reads, by kind: the inputs' unit, and why values outside cannot describe a real board
 RANGES: dict[str, PhysicalRange] = {
-    "coordinate": PhysicalRange(-MAX_COORDINATE_MM, MAX_COORDINATE_MM, "mm",
-                                "ten times the largest production panel; beyond it the number format is wrong"),
+    "coordinate": PhysicalRange(-MAX_COORDINATE_MM, MAX_COORDINATE_MM, "mm", "far beyond any production panel: "
+                                "past it the file is damaged or its number format is wrong"),
     "aperture size": PhysicalRange(0.0, 500.0, "mm",
                                    "no pad or trace is larger than a production panel (about 460 x 610 mm)"),
     "drill diameter": PhysicalRange(0.01, 100.0, "mm",

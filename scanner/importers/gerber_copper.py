@@ -170,10 +170,13 @@ class _CopperParser(GerberParser):
             raise ValueError("file ends inside a region (G36 without its G37)")
         super()._parse_eof(match)
 
-    def interpolate(self, *args, **kwargs):
+    def _parse_coord(self, match):
         if self.current_region is not None and len(self.current_region.outline) % MEMORY_CHECK_EVERY == 0:
-            check_parse_memory(len(self.current_region.outline) + 1, "points of one region")
-        return super().interpolate(*args, **kwargs)
+            points = len(self.current_region.outline) + 1
+            if points > limit(SEGMENTS):
+                check_count(points, SEGMENTS, "points in one region", line=self.lineno)
+            check_parse_memory(points, "points of one region")
+        super()._parse_coord(match)
 
     def _parse_step_repeat(self, match):
         if match["coords"]:

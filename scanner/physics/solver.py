@@ -23,7 +23,7 @@ from functools import lru_cache
 import numpy as np
 
 from scanner.errors import InputError
-from scanner.memory import check_memory
+from scanner.memory import check_memory, stage
 from scanner.physics.geometry import CrossSection
 from scanner.physics.kernels import panel_integrals
 from scanner.physics.matrices import LineMatrices
@@ -50,7 +50,7 @@ def solve_cross_section(section: CrossSection, mesh: MeshSettings = DEFAULT_MESH
 def _solve_cached(section: CrossSection, mesh: MeshSettings) -> LineMatrices:
     panels = build_panels(section, mesh)
     _check_size(section, len(panels))
-    with np.errstate(all="ignore"):
+    with stage("solving a cross-section", f"{len(panels):,} panels"), np.errstate(all="ignore"):
         C, C0 = _capacitances(section, panels)
     if not (np.isfinite(C).all() and np.isfinite(C0).all()):
         raise InputError(f"{_describe(section)}: the solve gave no finite result (the geometry is degenerate)")
