@@ -103,7 +103,7 @@ def check_range(kind: str, value, what: str, path: str | Path | None = None, lin
     return float(value)
 
 
-def limit(setting: tuple[str, int]) -> int:
+def limit(setting: tuple[str, int | None]) -> int | None:
     """The limit's value: its environment variable when set, else the default."""
     variable, default = setting
     text = os.environ.get(variable)

@@ -18,9 +18,11 @@ from contextlib import contextmanager
 from pathlib import Path
 
 from scanner.errors import InputError
+from scanner.input_limits import limit
 
-#: environment variable: megabytes (2**20 bytes) the whole process may use, in place of the machine's free memory
-MEMORY_MB = "NEARFAR_MAX_MEMORY_MB"
+#: (environment variable, default): megabytes (2**20 bytes) the whole process may use, in place of the
+#: machine's free memory (the default, None)
+MEMORY_MB = ("NEARFAR_MAX_MEMORY_MB", None)
 #: share of the free memory a single step may plan to use (the rest covers what estimates leave out)
 HEADROOM = 0.8
 #: attribute a MemoryError carries: (stage, input size) where it happened
@@ -71,19 +73,9 @@ def _machine_available() -> float:
         return math.inf
 
 
-def memory_setting_mb() -> int | None:
-    """``NEARFAR_MAX_MEMORY_MB`` as a whole number of MB, or None when unset."""
-    text = os.environ.get(MEMORY_MB)
-    if text is None or not text.strip():
-        return None
-    if not text.strip().isdigit() or int(text) < 1:
-        raise InputError(f"environment variable {MEMORY_MB} must be a whole number of at least 1, got {text!r}")
-    return int(text)
-
-
 def free_bytes() -> float:
     """Bytes the next step may still use (see the module docstring)."""
-    setting = memory_setting_mb()
+    setting = limit(MEMORY_MB)
     if setting is not None:
         held = _proc_kb("/proc/self/status", "VmRSS") or 0.0
         return max(0.0, setting * 2.0**20 - held)
@@ -98,8 +90,8 @@ def check_memory(needed_bytes: float, what: str, path: str | Path | None = None,
     free = HEADROOM * free_bytes()
     if needed_bytes <= free:
         return
-    where = (f"{MEMORY_MB}={memory_setting_mb()}" if memory_setting_mb() is not None
-             else f"what this machine has free; set {MEMORY_MB} to change it")
+    where = (f"{MEMORY_MB[0]}={limit(MEMORY_MB)}" if limit(MEMORY_MB) is not None
+             else f"what this machine has free; set {MEMORY_MB[0]} to change it")
     raise InputError(f"{what} needs about {_mb(needed_bytes)} of memory, more than the {_mb(free)} "
                      f"available ({where})", path=path, line=line)
 

@@ -140,27 +140,24 @@ def budget_of_1e_300_mv(tmp):
                    "outside the noise budget range")
 
 
-#: an 8 m routed slot: plunge, route, retract, back to drill mode
-ROUTE_8M = ["G00X0.0Y0.0", "M15", "G01X8000.0Y0.0", "M16", "G05"]
+def board_with_8m_slot(tmp: Path, tool_mm: str) -> Path:
+    """The board's drill file plus an 8 m routed slot (plunge, route, retract) of a tool of ``tool_mm``."""
+    lines = corpus.drill_lines()
+    lines[lines.index("T1C0.300")] = f"T1C0.300\nT2C{tool_mm}"
+    lines[-1:-1] = ["T2", "G00X0.0Y0.0", "M15", "G01X8000.0Y0.0", "M16", "G05"]
+    return corpus.board_with(tmp, corpus.DRILL_FILE, lines)
 
 
 @bounded
 def eight_metre_slot_with_a_two_micron_tool(tmp):
-    lines = corpus.drill_lines()
-    lines[lines.index("T1C0.300")] = "T1C0.300\nT2C0.002"
-    lines[-1:-1] = ["T2"] + ROUTE_8M
-    board = corpus.board_with(tmp, corpus.DRILL_FILE, lines)
-    return Bounded(scan(board, tmp), "outside the drill diameter range")
+    return Bounded(scan(board_with_8m_slot(tmp, "0.002"), tmp), "outside the drill diameter range")
 
 
 @bounded
 def eight_metre_slot_counted_as_holes(tmp):
     """An 8 m slot of a 0.1 mm tool is 160,000 holes: counted against the object limit before any is made."""
-    lines = corpus.drill_lines()
-    lines[lines.index("T1C0.300")] = "T1C0.300\nT2C0.100"
-    lines[-1:-1] = ["T2"] + ROUTE_8M
-    board = corpus.board_with(tmp, corpus.DRILL_FILE, lines)
-    return Bounded(scan(board, tmp), "routed slots counted as rows of holes", env={"NEARFAR_MAX_OBJECTS": "10000"})
+    return Bounded(scan(board_with_8m_slot(tmp, "0.100"), tmp), "routed slots counted as rows of holes",
+                   env={"NEARFAR_MAX_OBJECTS": "10000"})
 
 
 # ---------------------------------------------------------------------------------------- outlines
@@ -280,22 +277,17 @@ def diff_pair_pattern_of_many_stars(tmp):
 # ---------------------------------------------------------------------------------------- section
 
 
-@bounded
-def section_a_metre_wide(tmp):
-    return Bounded(("section", "--width", "1000", "--spacing", "0.2", "--height-below", "0.1"),
-                   "--width 1000 mm is outside the trace width range")
+def _section_case(name: str, width: str, height: str, says: str) -> None:
+    def make(tmp):
+        return Bounded(("section", "--width", width, "--spacing", "0.2", "--height-below", height), says)
+    make.__name__ = name
+    bounded(make)
 
 
-@bounded
-def section_a_picometre_high(tmp):
-    return Bounded(("section", "--width", "0.2", "--spacing", "0.2", "--height-below", "1e-12"),
-                   "--height-below 1e-12 mm is outside the dielectric thickness range")
-
-
-@bounded
-def section_1e300_high(tmp):
-    return Bounded(("section", "--width", "0.2", "--spacing", "0.2", "--height-below", "1e300"),
-                   "outside the dielectric thickness range")
+_section_case("section_a_metre_wide", "1000", "0.1", "--width 1000 mm is outside the trace width range")
+_section_case("section_a_picometre_high", "0.2", "1e-12",
+              "--height-below 1e-12 mm is outside the dielectric thickness range")
+_section_case("section_1e300_high", "0.2", "1e300", "outside the dielectric thickness range")
 
 
 @bounded
