@@ -12,7 +12,7 @@ from pathlib import Path
 
 import numpy as np
 
-from scanner.errors import InputError
+from scanner.errors import InputError, InternalError
 
 #: (environment variable, default): largest text input file, in MB (2**20 bytes)
 FILE_MB = ("NEARFAR_MAX_FILE_MB", 200)
@@ -63,7 +63,8 @@ RANGES: dict[str, PhysicalRange] = {
     "dielectric thickness": PhysicalRange(0.001, 10.0, "mm", "a micron-thin film up to a thick backplane"),
     "soldermask thickness": PhysicalRange(0.001, 1.0, "mm", "coatings are a few to a hundred microns"),
     "relative permittivity": PhysicalRange(1.0, 100.0, "", "vacuum (1) up to filled ceramics"),
-    "copper weight": PhysicalRange(0.05, 250.0, "oz/ft²", "the copper thickness range, in ounces per square foot"),
+    "copper weight": PhysicalRange(0.05, 50.0, "oz/ft²", "a twentieth of an ounce of plating up to the heaviest "
+                                   "copper boards, some tens of ounces"),
     "rise time": PhysicalRange(0.001, 100_000.0, "ns", "1 ps (the fastest serial links) to 100 µs"),
     "swing": PhysicalRange(0.001, 5000.0, "V", "a millivolt sense signal up to isolation-barrier voltages"),
     "noise budget": PhysicalRange(0.001, 1e6, "mV", "a microvolt up to a kilovolt"),
@@ -75,6 +76,9 @@ RANGES: dict[str, PhysicalRange] = {
     "angle tolerance": PhysicalRange(0.0, 45.0, "degrees", "beyond 45° two traces are crossing, not running "
                                      "side by side", low_open=True, high_open=True),
     "fraction of budget": PhysicalRange(0.0, 1.0, "", "a share of the budget"),
+    "impedance": PhysicalRange(0.0, 1000.0, "ohm", "printed-circuit lines lie far below 1000 ohm", low_open=True),
+    "impedance tolerance": PhysicalRange(0.0, 100.0, "%", "a share of the target", low_open=True, high_open=True),
+    "impedance check length": PhysicalRange(0.0, 1000.0, "mm", "a length on the board"),
     "trace width": PhysicalRange(0.001, 100.0, "mm", "a micron-wide line up to a wide power trace"),
     "edge spacing": PhysicalRange(0.001, 100.0, "mm", "a micron up to the search distance of any board"),
     "pad scale": PhysicalRange(0.001, 1000.0, "", "a symbol resized to a thousandth or a thousand times"),
@@ -145,9 +149,8 @@ def coordinate_problem(largest_mm: float) -> str | None:
 
 
 def check_finite(values, what: str) -> None:
-    """InputError when any of ``values`` (an array) is not finite: a result the inputs drove beyond what the
-    numbers can hold (the check that turns silent NaN or infinity into one clear line)."""
+    """InternalError when any of ``values`` (an array) is not finite: with every input within its physical
+    range, a NaN or infinity is a fault of nearfar, reported in one line rather than passed on."""
     bad = ~np.isfinite(np.asarray(values, dtype=np.float64))
     if bad.any():
-        raise InputError(f"{what}: {int(bad.sum()):,} of {bad.size:,} values are not finite numbers; the inputs "
-                         "drive the model beyond what it can compute")
+        raise InternalError(f"{what}: {int(bad.sum()):,} of {bad.size:,} values are not finite numbers")

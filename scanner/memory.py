@@ -27,8 +27,6 @@ MEMORY_MB = ("NEARFAR_MAX_MEMORY_MB", None)
 HEADROOM = 0.8
 #: attribute a MemoryError carries: (stage, input size) where it happened
 STAGE_ATTRIBUTE = "nearfar_stage"
-#: exit status of a run that ran out of memory (an internal error: the estimates should have refused it)
-OUT_OF_MEMORY_STATUS = 4
 
 _stages: list[tuple[str, str]] = []
 

@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import re
 import tomllib
+import dataclasses
 from dataclasses import dataclass, field, asdict
 from pathlib import Path
 
@@ -37,6 +38,13 @@ class NetClass:
     next_budget_mv: float | None = None
     fext_budget_mv: float | None = None
     termination: str = "high-z-receiver"
+    z0_target_ohm: float | None = None  # single-ended impedance the class is routed for
+    zdiff_target_ohm: float | None = None  # differential impedance of its pairs
+    impedance_tolerance_pct: float = 10.0
+
+    @property
+    def has_impedance_target(self) -> bool:
+        return self.z0_target_ohm is not None or self.zdiff_target_ohm is not None
 
     @property
     def receiver_gain(self) -> float:
@@ -114,6 +122,9 @@ class ScanSettings:
     budget_basis: str = "worst-case"
     differential_aggressor: str = "two-lines"
     auto_diff_pairs: bool = True
+    #: stretches outside an impedance target shorter than this are counted, not listed (pad neck-downs)
+    impedance_min_length_mm: float = 1.0
+    skip_layers: tuple[str, ...] = ()  # copper layer names left out of the search (the verdict is then incomplete)
 
 
 @dataclass(frozen=True)
@@ -165,11 +176,13 @@ class Rules:
 _CLASS_KEYS = {
     "name": str, "nets": list, "rise_time_ns": float, "swing_v": float,
     "next_budget_pct": float, "fext_budget_pct": float, "next_budget_mv": float, "fext_budget_mv": float,
-    "termination": str,
+    "termination": str, "z0_target_ohm": float, "zdiff_target_ohm": float, "impedance_tolerance_pct": float,
 }
 _SCAN_KEYS = {
     "search_distance_mm": float, "min_coupled_length_mm": float, "angle_tolerance_deg": float,
     "warn_fraction": float, "list_floor": float, "budget_basis": str, "differential_aggressor": str, "auto_diff_pairs": bool,
+    "impedance_min_length_mm": float,
+    "skip_layers": list,
 }
 _STACK_KEYS = {"kind": str, "name": str, "thickness_mm": float, "epsilon_r": float}
 _PAIR_KEYS = {
@@ -184,7 +197,8 @@ _RANGE_OF = {
     "angle_tolerance_deg": "angle tolerance", "warn_fraction": "fraction of budget", "list_floor": "fraction of budget",
     "rise_time_ns": "rise time", "swing_v": "swing", "next_budget_pct": "budget share",
     "fext_budget_pct": "budget share", "next_budget_mv": "noise budget", "fext_budget_mv": "noise budget",
-    "epsilon_r": "relative permittivity",
+    "epsilon_r": "relative permittivity", "z0_target_ohm": "impedance", "zdiff_target_ohm": "impedance",
+    "impedance_tolerance_pct": "impedance tolerance", "impedance_min_length_mm": "impedance check length",
 }
 
 
@@ -225,6 +239,11 @@ def parse_rules(doc: dict, source: str) -> Rules:
     _check_choice(scan_kw.get("differential_aggressor"), DIFF_AGGRESSOR_MODELS, "[scan] differential_aggressor", bad)
     if "warn_fraction" in scan_kw and not scan_kw["warn_fraction"] > 0:
         raise bad("[scan] warn_fraction must be more than 0")
+    if "skip_layers" in scan_kw:
+        names = scan_kw["skip_layers"]
+        if not all(isinstance(n, str) and n for n in names):
+            raise bad("[scan] skip_layers must be a list of copper layer names")
+        scan_kw["skip_layers"] = tuple(names)
     scan = ScanSettings(**scan_kw)
 
     classes = []
@@ -282,12 +301,17 @@ def parse_rules(doc: dict, source: str) -> Rules:
 
     stackup = None
     if "stackup" in doc:
-        stackup = _parse_stackup(doc["stackup"], bad, source)
+        stackup = dataclasses.replace(_parse_stackup(doc["stackup"], bad, source), path=source)
 
     class_pairs = _parse_class_pairs(doc.get("class_pair", []), set(names) | {DEFAULT_CLASS.name}, bad, source)
 
     return Rules(classes=tuple(classes), power_patterns=power_patterns, diff_pairs=tuple(pairs), scan=scan,
                  stackup=stackup, planes=tuple(planes), class_pairs=class_pairs, source=source)
+
+
+def parse_stackup_table(raw, source: str) -> Stackup:
+    """A ``[stackup]`` table (``layers`` top to bottom), checked as in the rules file; errors name ``source``."""
+    return _parse_stackup(raw, lambda msg: InputError(msg, source), source)
 
 
 def _parse_class_pairs(raw, class_names: set[str], bad, source: str) -> tuple[ClassPairRule, ...]:
