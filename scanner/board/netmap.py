@@ -178,7 +178,9 @@ def _locate_points(board: Board, features: Features, trees: list, hole_labels: n
     if len(through) and len(plated):
         disks = shapely.buffer(shapely.points(board.holes.x[plated], board.holes.y[plated]),
                                board.holes.diameter[plated] / 2, quad_segs=HOLE_QUAD_SEGS)
-        p, h = shapely.STRtree(disks).query(geoms[through], predicate="intersects")
+        points = geoms[through]
+        p, h = query_all(shapely.STRtree(disks), points, "netlist points in plated holes",
+                         keep=lambda q, t: shapely.intersects(points[q], disks[t]))
         p_parts.append(through[p])
         i_parts.append(hole_labels[plated[h]])
     if not p_parts:
