@@ -1,12 +1,11 @@
 """Net roles: each net's class, whether it takes part (power and plane nets do not), its differential partner."""
 from __future__ import annotations
 
-import re
 from dataclasses import dataclass
 
 import numpy as np
 
-from scanner.patterns import compile_patterns
+from scanner.patterns import compile_capture, compile_patterns, fill
 from scanner.rules import DEFAULT_CLASS, NetClass, Rules
 
 #: suffix conventions recognised for automatic differential pairing: (positive, negative)
@@ -53,11 +52,12 @@ def assign_roles(net_names: list[str], rules: Rules, plane_nets: set[str] = froz
 
 def _pairs(net_names, rules: Rules, index: dict):
     for pos_pat, neg_pat in rules.diff_pairs:
+        positive = compile_capture(pos_pat)
         for name in net_names:
-            m = _pattern_capture(pos_pat, name)
+            m = positive.match(name)
             if m is None:
                 continue
-            other = _fill(neg_pat, m)
+            other = fill(neg_pat, m.groups())
             if other in index:
                 yield name, other
     if rules.scan.auto_diff_pairs:
@@ -71,17 +71,3 @@ def _pairs(net_names, rules: Rules, index: dict):
 
 def _same_case(suffix: str, like: str) -> str:
     return suffix.lower() if like.islower() else suffix
-
-
-def _pattern_capture(pattern: str, name: str):
-    rx = "^" + re.escape(pattern).replace(r"\*", "(.*)") + "$"
-    m = re.match(rx, name, flags=re.IGNORECASE)
-    return None if m is None else m.groups()
-
-
-def _fill(pattern: str, groups) -> str:
-    parts = pattern.split("*")
-    out = parts[0]
-    for g, rest in zip(groups, parts[1:]):
-        out += g + rest
-    return out

@@ -12,11 +12,33 @@ from scanner.commands.options import stackup_option, stackup_override
 from scanner.coupling.coefficients import section_arguments
 from scanner.physics import (WEAK_COUPLING_LIMIT, Soldermask, coupling_coefficients, piecewise_peaks,
                              saturation_length_m, solve_cross_section, traces_on_layer, weak_coupling_holds)
+from scanner.input_limits import check_finite, check_range
 from scanner.units import M_PER_MM, S_PER_NS
 
-_POSITIVE = click.FloatRange(min=0, min_open=True)
 PLOT_FORMATS = (".png", ".svg", ".pdf")
 PLOT_DPI = 150
+
+
+class Physical(click.ParamType):
+    """A number within its physical range (scanner.input_limits.RANGES); outside it, one line and exit status 2."""
+
+    name = "number"
+
+    def __init__(self, kind: str, zero_allowed: bool = False):
+        self.kind = kind
+        self.zero_allowed = zero_allowed
+
+    def convert(self, value, param, ctx):
+        if isinstance(value, float):
+            return value
+        try:
+            number = float(value)
+        except ValueError:
+            self.fail(f"{value!r} is not a number", param, ctx)
+        if self.zero_allowed and number == 0:
+            return 0.0
+        return check_range(self.kind, number, param.opts[0] if param else self.kind)
+
 
 
 def _gaps(widths, spacings):
@@ -153,28 +175,28 @@ def render_section(data: dict) -> str:
 
 
 @click.command("section")
-@click.option("--width", "widths", type=_POSITIVE, multiple=True, required=True,
+@click.option("--width", "widths", type=Physical("trace width"), multiple=True, required=True,
               help="Trace width in mm; repeat for each trace, left to right (one width and a spacing: a pair).")
-@click.option("--spacing", "spacings", type=_POSITIVE, multiple=True,
+@click.option("--spacing", "spacings", type=Physical("edge spacing"), multiple=True,
               help="Edge-to-edge gap in mm between neighbouring traces; one value applies to every gap.")
-@click.option("--copper", type=click.FloatRange(min=0), default=0.035, show_default=True,
+@click.option("--copper", type=Physical("copper thickness", zero_allowed=True), default=0.035, show_default=True,
               help="Copper thickness in mm (0: zero-thickness strips).")
-@click.option("--height-below", type=_POSITIVE, help="Dielectric from the plane to the trace, mm.")
-@click.option("--er-below", type=click.FloatRange(min=1), default=4.2, show_default=True,
+@click.option("--height-below", type=Physical("dielectric thickness"), help="Dielectric from the plane to the trace, mm.")
+@click.option("--er-below", type=Physical("relative permittivity"), default=4.2, show_default=True,
               help="Relative permittivity of the dielectric below the trace.")
-@click.option("--height-above", type=_POSITIVE,
+@click.option("--height-above", type=Physical("dielectric thickness"),
               help="Dielectric above the trace base, mm: up to the upper plane (stripline) or a cover layer.")
-@click.option("--er-above", type=click.FloatRange(min=1), help="Its relative permittivity (default: --er-below).")
+@click.option("--er-above", type=Physical("relative permittivity"), help="Its relative permittivity (default: --er-below).")
 @click.option("--planes", type=click.Choice(["below", "both"]),
               help="Reference planes: 'below' (microstrip) or 'both' (stripline); default from --height-above.")
-@click.option("--mask", type=_POSITIVE, help="Soldermask thickness in mm over a microstrip.")
-@click.option("--mask-er", type=click.FloatRange(min=1), default=3.5, show_default=True,
+@click.option("--mask", type=Physical("soldermask thickness"), help="Soldermask thickness in mm over a microstrip.")
+@click.option("--mask-er", type=Physical("relative permittivity"), default=3.5, show_default=True,
               help="Soldermask relative permittivity.")
 @click.option("--aggressor", type=click.IntRange(min=0), default=0, show_default=True, help="Aggressor trace index.")
 @click.option("--victim", type=click.IntRange(min=0), default=1, show_default=True, help="Victim trace index.")
-@click.option("--rise-time", "rise_time_ns", type=_POSITIVE, help="Aggressor 10-90 % rise time in ns.")
-@click.option("--length", "length_mm", type=_POSITIVE, help="Coupled length in mm (needs --rise-time).")
-@click.option("--swing", "swing_v", type=_POSITIVE, default=1.0, show_default=True, help="Aggressor swing in V.")
+@click.option("--rise-time", "rise_time_ns", type=Physical("rise time"), help="Aggressor 10-90 % rise time in ns.")
+@click.option("--length", "length_mm", type=Physical("coupled length"), help="Coupled length in mm (needs --rise-time).")
+@click.option("--swing", "swing_v", type=Physical("swing"), default=1.0, show_default=True, help="Aggressor swing in V.")
 @click.option("--receiver", type=click.Choice(["matched", "high_z"]), default="matched", show_default=True,
               help="Victim far-end termination.")
 @stackup_option
@@ -209,6 +231,11 @@ def command(ctx, widths, spacings, copper, height_below, er_below, height_above,
     if plot_path is not None and Path(plot_path).suffix.lower() not in PLOT_FORMATS:
         raise click.UsageError(f"--plot: give a file name ending in {', '.join(PLOT_FORMATS)}")
     data = section_data(section, aggressor, victim, rise_time_ns, length_mm, swing_v, receiver)
+    with np.errstate(all="ignore"):
+        data = section_data(section, aggressor, victim, rise_time_ns, length_mm, swing_v, receiver)
+    check_finite(np.concatenate([np.ravel(v) for v in data.values()
+                                 if isinstance(v, (int, float, list)) and not isinstance(v, bool)]),
+                 "cross-section results")
     if where is not None:
         data["layer"] = where
     if plot_path is not None:

@@ -3,12 +3,15 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
+import numpy as np
+
 from scanner.board.layerstack import BoardEnvironments
 from scanner.board.model import Board
 from scanner.board.references import describe_reference
 from scanner.board.roles import NetRoles
 from scanner.coupling.layer_impedance import SignalLayerRow
 from scanner.coupling.stage import RUN_GAP_MM, CoupledSet
+from scanner.input_limits import check_finite
 from scanner.rules import Rules
 from scanner.scoring.class_limits import GeometricFinding, check_geometric_limits
 from scanner.scoring.coverage import coverage_and_gaps
@@ -39,6 +42,7 @@ def score_runs(board: Board, rules: Rules, roles: NetRoles, env: BoardEnvironmen
     runs = coupled.runs
     directed = directed_runs(rules, roles, runs, coupled.kept)
     noise = score_noise(rules, roles, directed, runs, coupled.coefficients)
+    check_finite(np.concatenate([noise.next_v, noise.fext_v, noise.used]), "predicted NEXT and FEXT")
     geometric = check_geometric_limits(rules, roles, runs, board)
     waived = apply_waivers(rules.waivers, board, roles, directed, noise, geometric, runs)
     listed = listed_rows(noise, rules)

@@ -57,10 +57,10 @@ def test_full_file_parses(tmp_path):
     ("[scan]\nmin_coupled_length_mm = \"long\"\n", "must be float"),
     ("[[class]]\nname = \"x\"\n", "needs 'name' and 'nets'"),
     ("[[class]]\nname = \"x\"\nnets = [\"A*\"]\ntermination = \"open\"\n", "termination must be one of"),
-    ("[[class]]\nname = \"x\"\nnets = [\"A*\"]\nrise_time_ns = -1\n", "must be positive"),
+    ("[[class]]\nname = \"x\"\nnets = [\"A*\"]\nrise_time_ns = -1\n", "rise_time_ns -1 ns is outside the rise time range"),
     ("colour = 1\n", "unknown key(s) colour"),
-    ("[stackup]\nlayers = [{ kind = \"dielectric\", thickness_mm = 0.1, epsilon_r = 0.5 }]\n", "epsilon_r must be"),
-    ("[stackup]\nlayers = [{ kind = \"copper\", thickness_mm = -0.1 }]\n", "thickness_mm must be"),
+    ("[stackup]\nlayers = [{ kind = \"dielectric\", thickness_mm = 0.1, epsilon_r = 0.5 }]\n", "epsilon_r 0.5 is outside the relative permittivity range"),
+    ("[stackup]\nlayers = [{ kind = \"copper\", thickness_mm = -0.1 }]\n", "thickness_mm -0.1 mm is outside the copper thickness range"),
     ("[[diff_pair]]\npositive = \"A*_P\"\nnegative = \"A_N\"\n", "same number of '*'"),
 ])
 def test_bad_rules_name_the_problem(tmp_path, text, needle):
