@@ -30,8 +30,9 @@ def run_scan(board: Board, rules: Rules | None = None, progress: Progress | None
     reach_mm = max([0.0] + [r.within_spacing_mm for r in rules.class_pairs if r.has_geometry])
     coupled = find_runs(board, env, roles, rules.scan, reach_mm, say)
     say("scoring")
-    scored = score_runs(board, rules, roles, env, coupled)
-    return build_result(board, rules, env, coupled, scored, list(env.warnings) + list(board.warnings))
+    scored = score_runs(board, rules, coupled.roles, env, coupled)
+    return build_result(board, rules, env, coupled, scored,
+                        list(roles.warnings) + list(env.warnings) + list(board.warnings))
 
 
 def _plane_nets(board: Board, plane_layers) -> set[str]:

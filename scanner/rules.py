@@ -21,6 +21,7 @@ from scanner.patterns import compile_patterns
 TERMINATIONS = ("matched", "high-z-receiver")
 DIFF_AGGRESSOR_MODELS = ("two-lines", "odd-mode")
 BUDGET_BASES = ("worst-case", "rss")
+PAIR_BY_GEOMETRY = ("unnamed-nets", "all-nets", "off")
 
 #: default power and ground patterns (common practice in net naming)
 DEFAULT_POWER_PATTERNS = ("GND*", "*_GND", "AGND*", "DGND*", "PGND*", "VSS*", "VCC*", "VDD*", "VBUS", "+*")
@@ -116,6 +117,7 @@ class ScanSettings:
     budget_basis: str = "worst-case"
     differential_aggressor: str = "two-lines"
     auto_diff_pairs: bool = True
+    pair_by_geometry: str = "unnamed-nets"
 
 
 @dataclass(frozen=True)
@@ -172,6 +174,7 @@ _CLASS_KEYS = {
 _SCAN_KEYS = {
     "search_distance_mm": float, "min_coupled_length_mm": float, "angle_tolerance_deg": float,
     "warn_fraction": float, "list_floor": float, "budget_basis": str, "differential_aggressor": str, "auto_diff_pairs": bool,
+    "pair_by_geometry": str,
 }
 _STACK_KEYS = {"kind": str, "name": str, "thickness_mm": float, "epsilon_r": float}
 _PAIR_KEYS = {
@@ -216,6 +219,7 @@ def parse_rules(doc: dict, source: str) -> Rules:
     scan_kw = _typed(doc.get("scan", {}), _SCAN_KEYS, "[scan]", bad)
     _check_choice(scan_kw.get("budget_basis"), BUDGET_BASES, "[scan] budget_basis", bad)
     _check_choice(scan_kw.get("differential_aggressor"), DIFF_AGGRESSOR_MODELS, "[scan] differential_aggressor", bad)
+    _check_choice(scan_kw.get("pair_by_geometry"), PAIR_BY_GEOMETRY, "[scan] pair_by_geometry", bad)
     for key in ("search_distance_mm", "min_coupled_length_mm"):
         if key in scan_kw and not scan_kw[key] > 0:
             raise bad(f"[scan] {key} must be positive")

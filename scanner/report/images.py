@@ -145,7 +145,7 @@ def crop_figure(result: ScanResult, board: Board, hotspot: Hotspot):
     _finish(canvas, [mark], entries, f"#{hotspot.rank}  {hotspot.victim} (victim) ← {hotspot.aggressor} "
             f"(aggressor) on {layer.name}",
             f"{board.name}: {hotspot.coupled_length_mm:.4g} mm coupled, ≥ {hotspot.min_spacing_mm:.3g} mm apart; "
-            f"NEXT {hotspot.next_mv:.4g} mV, FEXT {hotspot.fext_mv:.4g} mV; {100 * hotspot.budget_used:.0f} % of budget")
+            f"NEXT {hotspot.next_mv:.4g} mV, FEXT {hotspot.fext_mv:.4g} mV; {hotspot.budget_used_pct:.0f} % of budget")
     return canvas.figure
 
 

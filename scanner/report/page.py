@@ -213,7 +213,7 @@ def _maps(result: ScanResult, folder: _Folder) -> Markup:
     parts = [tag("h2", "Where the findings are", id="maps"),
              tag("p", f"Findings over budget and near budget are all drawn, passing ones only among the first "
                       f"{PASS_SHOWN_TOP} ranks. Labels give ranks in the findings table (G1, G2, …: geometric "
-                      "limits); a label with two ranks is one run scored in both directions. Click an image for "
+                      "limits). Click an image for "
                       "the scalable version.", class_="muted")]
     for stem, caption in [(names.COMPOSITE_STEM, "All layers: marker shape gives the side of the finding's main "
                                                 "layer.")] + [(st, f"Layer {name}: copper, victim and aggressor "
@@ -248,8 +248,8 @@ def _fix_text(h: Hotspot) -> Markup:
 
 def _used(h: Hotspot) -> Markup:
     """Share of budget used, with the exact simulation's share under it where one was run."""
-    used = f"{100 * h.budget_used:.0f} %"
-    return two_line(used, f"exact {100 * h.exact['budget_used']:.0f} %") if h.exact else esc(used)
+    used = f"{h.budget_used_pct:.0f} %"
+    return two_line(used, f"exact {h.exact['budget_used_pct']:.0f} %") if h.exact else esc(used)
 
 
 def _floor_note(result: ScanResult) -> str:
@@ -286,8 +286,8 @@ def _findings(result: ScanResult, folder: _Folder) -> Markup:
                "suggested fix", "views"]
     body = table(headers, rows, class_="findings", numeric={0, 5, 6, 7, 8, 9, 10, 11}, row_classes=classes)
     return Markup(tag("h2", f"Findings, worst first ({len(result.hotspots)})", id="findings")
-                  + tag("p", "One row per aggressor and victim on one coupled run; both directions of a run are "
-                             f"listed.{_floor_note(result)} Location: middle of the run's worst stretch, board "
+                  + tag("p", "One row per coupled run, showing its worse direction (report.json holds both)."
+                             f"{_floor_note(result)} Location: middle of the run's worst stretch, board "
                              "coordinates seen from the top.", class_="muted")
                   + tag("div", body, class_="scroll"))
 
@@ -330,7 +330,7 @@ def _details(result: ScanResult, folder: _Folder) -> Markup:
                       ("strong coupling", "yes: weak-coupling figures are less accurate" if h.strong_coupling
                        else "no")]
                      + ([("exact line simulation", f"NEXT {h.exact['next_mv']:.4g} mV, FEXT {h.exact['fext_mv']:.4g} "
-                                                   f"mV, {100 * h.exact['budget_used']:.0f} % of budget")]
+                                                   f"mV, {h.exact['budget_used_pct']:.0f} % of budget")]
                         if h.exact else []))
         parts.append(tag("section", [tag("h3", f"#{h.rank} {h.victim} ← {h.aggressor} on {'+'.join(h.layers)}"),
                                      info, tag("div", figures, class_="pair")], id=f"finding-{h.rank}"))
@@ -342,10 +342,10 @@ def _details(result: ScanResult, folder: _Folder) -> Markup:
 def _victims(victims: list[VictimTotal]) -> Markup:
     rows = []
     for v in victims:
-        aggressors = list(dict.fromkeys(v.aggressors))
+        aggressors = list(dict.fromkeys(a["aggressor"] for a in v.aggressors))
         rows.append([v.net, v.net_class, badge(v.status), f"{v.next_worst_mv:.4g} ({v.next_worst_pct:.3g} %)",
                      f"{v.fext_worst_mv:.4g} ({v.fext_worst_pct:.3g} %)", f"{v.next_rss_pct:.3g} / {v.fext_rss_pct:.3g}",
-                     f"{v.next_budget_mv:.4g} / {v.fext_budget_mv:.4g}", f"{100 * v.budget_used:.0f} %",
+                     f"{v.next_budget_mv:.4g} / {v.fext_budget_mv:.4g}", f"{v.budget_used_pct:.0f} %",
                      ", ".join(aggressors)])
     return Markup(tag("h2", f"Victims, all aggressors together ({len(victims)})", id="victims")
                   + tag("p", "Worst case: peak magnitudes added; RSS: root-sum-square. The budget check uses the "

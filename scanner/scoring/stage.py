@@ -10,10 +10,11 @@ from scanner.coupling.stage import RUN_GAP_MM, CoupledSet
 from scanner.rules import Rules
 from scanner.scoring.class_limits import GeometricFinding, check_geometric_limits
 from scanner.scoring.directions import DirectedRuns, directed_runs
-from scanner.scoring.findings import hotspot_records, victim_totals, with_exact_checks
-from scanner.scoring.fixes import fix_guidance
-from scanner.scoring.noise import Noise, listed_rows, score_noise
+from scanner.scoring.findings import hotspot_records, listed_runs, victim_totals, with_exact_checks
+from scanner.scoring.fix_plans import plan_fixes
+from scanner.scoring.noise import Noise, score_noise
 from scanner.scoring.results import Hotspot, ScanResult, VictimTotal, rounded
+from scanner.scoring.totals import victim_sums
 
 
 @dataclass(frozen=True)
@@ -28,17 +29,18 @@ class Scored:
 
 
 def score_runs(board: Board, rules: Rules, roles: NetRoles, env: BoardEnvironments, coupled: CoupledSet) -> Scored:
-    """Directions, noise against budgets, fix guidance for warn/fail, records, victim totals, class-pair limits."""
+    """Directions, noise against budgets, victim sums, fix plans, records, class-pair limits."""
     runs = coupled.runs
     directed = directed_runs(rules, roles, runs, coupled.kept)
     noise = score_noise(rules, roles, directed, runs, coupled.coefficients)
-    listed = listed_rows(noise, rules)
+    sums = victim_sums(rules, roles, directed, noise)
     c = coupled.coefficients
-    fixes = fix_guidance(directed, listed[noise.status[listed] > 0], runs, coupled.lookup, board,
-                         (c.kb, c.kf_s_per_m, c.velocity_m_per_s), coupled.broadside_runs)
-    hotspots = hotspot_records(board, roles, env.signal, runs, directed, noise, listed, fixes, coupled.broadside_runs)
+    plans = plan_fixes(rules, roles, directed, noise, sums, runs, coupled.lookup, board,
+                       (c.kb, c.kf_s_per_m, c.velocity_m_per_s), coupled.broadside_runs)
+    listed = listed_runs(rules, directed, noise, plans, len(runs))
+    hotspots = hotspot_records(board, roles, env.signal, runs, directed, noise, listed, plans, coupled.broadside_runs)
     hotspots = with_exact_checks(hotspots, runs, env.signal, coupled.broadside_runs)
-    victims = victim_totals(board, rules, roles, directed, noise)
+    victims = victim_totals(board, roles, runs, directed, noise, sums, hotspots, plans)
     geometric = check_geometric_limits(rules, roles, runs, board)
     return Scored(directed, noise, hotspots, victims, geometric)
 
@@ -59,9 +61,11 @@ def build_result(board: Board, rules: Rules, env: BoardEnvironments, coupled: Co
                   "run_gap_mm": RUN_GAP_MM,
                   "budget_basis": rules.scan.budget_basis,
                   "differential_aggressor": rules.scan.differential_aggressor,
+                  "pair_by_geometry": rules.scan.pair_by_geometry,
                   "broadside_layer_pairs": [f"{board.layers[a].name}/{board.layers[b].name}" for a, b in env.broadside],
                   "cross_section_solves": coupled.solves},
         hotspots=scored.hotspots, victims=scored.victims, geometric=scored.geometric, warnings=warnings,
+        pairs=coupled.roles.pairs(board.nets),
         runs=coupled.runs, piece_coefficients=coupled.coefficients,
         summary=_summary(scored.noise, scored.hotspots, scored.victims, coupled.runs, coupled.kept)
         | {"list_floor": rules.scan.list_floor},
@@ -99,5 +103,7 @@ def _summary(noise: Noise, hotspots, victims, runs, keep) -> dict:
             "findings": int(alive.sum()), "findings_fail": int((alive & (noise.status == 2)).sum()),
             "findings_warn": int((alive & (noise.status == 1)).sum()),
             "hotspots_listed": len(hotspots),
+            "hotspots_fail": sum(h.status == "fail" for h in hotspots),
+            "hotspots_warn": sum(h.status == "warn" for h in hotspots),
             "victims": len(victims), "victims_fail": count["fail"], "victims_warn": count["warn"],
             "victims_pass": count["pass"]}
