@@ -12,8 +12,8 @@ import numpy as np
 
 from scanner.board.layerstack import board_environments
 from scanner.board.model import Board
-from scanner.board.roles import assign_roles
-from scanner.coupling.stage import find_runs
+from scanner.board.roles import NetRoles, assign_roles
+from scanner.coupling.stage import find_pieces, find_runs
 from scanner.rules import Rules
 from scanner.scoring.results import ScanResult
 from scanner.scoring.stage import build_result, score_runs
@@ -27,12 +27,25 @@ def run_scan(board: Board, rules: Rules | None = None, progress: Progress | None
 
     env = board_environments(board, rules.stackup, rules.planes)
     roles = assign_roles(board.nets, rules, _plane_nets(board, env.plane_layers))
-    reach_mm = max([0.0] + [r.within_spacing_mm for r in rules.class_pairs if r.has_geometry])
-    coupled = find_runs(board, env, roles, rules.scan, reach_mm, say)
+    coupled = find_runs(board, env, roles, rules.scan, _least_reach_mm(rules), say)
     say("scoring")
     scored = score_runs(board, rules, coupled.roles, env, coupled)
     return build_result(board, rules, env, coupled, scored,
                         list(roles.warnings) + list(env.warnings) + list(board.warnings))
+
+
+def board_roles(board: Board, rules: Rules | None = None) -> NetRoles:
+    """Each net's class, role and differential partner exactly as a scan finds them (by name, by the rules and
+    by routed geometry), without scoring anything."""
+    rules = rules or Rules()
+    env = board_environments(board, rules.stackup, rules.planes)
+    roles = assign_roles(board.nets, rules, _plane_nets(board, env.plane_layers))
+    return find_pieces(board, env, roles, rules.scan, _least_reach_mm(rules)).roles
+
+
+def _least_reach_mm(rules: Rules) -> float:
+    """The search reaches at least as far as the widest geometric class-pair limit."""
+    return max([0.0] + [r.within_spacing_mm for r in rules.class_pairs if r.has_geometry])
 
 
 def _plane_nets(board: Board, plane_layers) -> set[str]:

@@ -17,8 +17,8 @@ from scanner.board.model import Stackup, StackupLayer
 from scanner.errors import InputError, printable
 from scanner.input_limits import read_input
 from scanner.patterns import compile_patterns
+from scanner.physics.crosstalk import TERMINATIONS, receiver_gain
 
-TERMINATIONS = ("matched", "high-z-receiver")
 DIFF_AGGRESSOR_MODELS = ("two-lines", "odd-mode")
 BUDGET_BASES = ("worst-case", "rss")
 PAIR_BY_GEOMETRY = ("unnamed-nets", "all-nets", "off")
@@ -50,12 +50,6 @@ class NetClass:
 
     def fext_budget_v(self) -> float:
         return _budget_v(self.fext_budget_mv, self.fext_budget_pct, self.swing_v)
-
-
-def receiver_gain(termination: str) -> float:
-    """What a victim's receiver makes of an arriving noise wave: an open (high-impedance) input
-    doubles it (reflection coefficient +1); a matched end takes it as it is."""
-    return 2.0 if termination == "high-z-receiver" else 1.0
 
 
 def _budget_v(mv, pct, swing_v) -> float:

@@ -28,7 +28,7 @@ Victim noise (weak coupling, docs/physics.md §3), for one piece or a chain of p
 
     near_end_peak(kb, length_m, velocity_m_per_s, rise_time_s, swing_v)
     far_end_peak(kf, length_m, rise_time_s, swing_v)
-    piecewise_peaks(kb, kf, length_m, velocity_m_per_s, rise_time_s, swing_v, far_end_receiver="high_z")
+    piecewise_peaks(kb, kf, length_m, velocity_m_per_s, rise_time_s, swing_v, termination="high-z-receiver")
 
 ``simulate_coupled_lines`` (scanner.physics.mtl) solves the full lossless
 multiconductor line equations with resistive terminations, as a check on the

@@ -3,9 +3,12 @@
 The waveforms come from ``scanner.physics.crosstalk.piecewise_peaks`` (weak
 coupling, docs/physics.md §3) with the finding's own chain of pieces and their
 coefficients and the aggressor's rise time and swing; the orientation shown is the
-one with the larger near-end noise. As in the scan (docs/physics.md, terminations),
-a victim with a high-impedance receiver has each end's curve doubled: the wave
-arriving at an open input doubles, whichever end the receiver sits at. The time
+one with the larger near-end noise. The model is the scan's own (docs/physics.md,
+terminations): for a victim with a high-impedance receiver each curve is that
+receiver's voltage in one of the two cases — the near-end curve with the receiver
+at the aggressor's driver end (victim driven from the far end), the far-end curve
+with the receiver at the far end (victim driven from the same end) — and the plot
+says so. The time
 grid contains every breakpoint of the piecewise-linear waveforms, so the plotted
 peaks are the model's exact peaks.
 """
@@ -18,13 +21,16 @@ from matplotlib.backends.backend_agg import FigureCanvasAgg
 from matplotlib.figure import Figure
 
 from scanner.board.model import Board
-from scanner.physics.crosstalk import piecewise_peaks, ramp_duration_s
+from scanner.physics.crosstalk import piecewise_peaks, ramp_duration_s, receiver_gain
 from scanner.report import palette
 from scanner.report.overlay import fit_line
 from scanner.scoring.results import Hotspot, ScanResult
-from scanner.rules import receiver_gain
 
 GRID_POINTS = 1200
+#: curve labels: matched victim ends, or where the high-impedance receiver sits in each case
+END_LABELS = {False: ("near end (matched)", "far end (matched)"),
+              True: ("near end: receiver here, victim driven from the far end (wave doubled)",
+                     "far end: receiver here, victim driven from the same end (wave doubled)")}
 FIGURE_IN = (8.0, 4.8)
 ODD_MODE = "differential (odd mode)"
 
@@ -74,15 +80,15 @@ def finding_waveforms(result: ScanResult, board: Board, hotspot: Hotspot) -> Fin
     velocity = coeff.velocity_m_per_s[rows]
     rise_time_s = hotspot.rise_time_ns * 1e-9
     ramp_s = float(ramp_duration_s(rise_time_s))
-    gain = receiver_gain(hotspot.termination)
     time_s = _time_grid(length_m / velocity, ramp_s)
     noise = piecewise_peaks(coeff.kb[rows], coeff.kf_s_per_m[rows], length_m, velocity, rise_time_s,
-                            hotspot.swing_v, far_end_receiver="matched", waveforms=True, time_s=time_s)
+                            hotspot.swing_v, termination=hotspot.termination, waveforms=True, time_s=time_s)
     victim = board.net_id(hotspot.victim)
     net_a, net_b = int(runs.net_a[hotspot.run]), int(runs.net_b[hotspot.run])
     aggressor = board.nets[net_b if net_a == victim else net_a]
     edge_v = hotspot.swing_v * np.clip(time_s / ramp_s, 0.0, 1.0)  # the linear ramp of docs/physics.md §3
-    return FindingWaveforms(time_s, gain * noise.near_end_v, gain * noise.far_end_v, edge_v, aggressor, gain)
+    return FindingWaveforms(time_s, noise.near_end_v, noise.far_end_v, edge_v, aggressor,
+                            receiver_gain(hotspot.termination))
 
 
 def _budgets_v(hotspot: Hotspot) -> dict[str, float]:
@@ -129,10 +135,9 @@ def wave_figure(waves: FindingWaveforms, hotspot: Hotspot) -> Figure:
     budgets = _budgets_v(hotspot)
     low, high = _limits_mv(waves, budgets)
     _budget_lines(ax, budgets, (low, high))
-    doubled = " (into a high-impedance receiver: doubled)" if waves.receiver_gain != 1 else ""
-    ax.plot(t_ns, waves.near_end_v * 1e3, color=palette.NEAR_END, linewidth=1.7, label="near end" + doubled,
-            zorder=3)
-    ax.plot(t_ns, waves.far_end_v * 1e3, color=palette.FAR_END, linewidth=1.7, label="far end" + doubled, zorder=3)
+    near_label, far_label = END_LABELS[waves.receiver_gain != 1]
+    ax.plot(t_ns, waves.near_end_v * 1e3, color=palette.NEAR_END, linewidth=1.7, label=near_label, zorder=3)
+    ax.plot(t_ns, waves.far_end_v * 1e3, color=palette.FAR_END, linewidth=1.7, label=far_label, zorder=3)
     exact = hotspot.exact or {}
     for peak_v, values, colour, name in ((waves.near_end_peak_v, waves.near_end_v, palette.NEAR_END, "NEXT"),
                                          (waves.far_end_peak_v, waves.far_end_v, palette.FAR_END, "FEXT")):
