@@ -5,7 +5,7 @@ Plain result records and the JSON shape of ``report.json`` (schema
 """
 from __future__ import annotations
 
-from dataclasses import dataclass, field, asdict
+from dataclasses import asdict, dataclass, field, replace
 
 import numpy as np
 
@@ -114,6 +114,13 @@ class Hotspot:
         if name in Direction.__slots__:
             return getattr(self.directions[0], name)
         raise AttributeError(name)
+
+    def toward(self, victim: str) -> "Hotspot":
+        """The same run with ``victim``'s direction first (read through by ``victim``, ``next_mv`` …)."""
+        first = [x for x in self.directions if x.victim == victim]
+        if not first:
+            raise KeyError(f"{victim} is not a victim on this run")
+        return replace(self, directions=first + [x for x in self.directions if x.victim != victim])
 
     def to_dict(self) -> dict:
         d = {k: getattr(self, k) for k in self.__slots__}

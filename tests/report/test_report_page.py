@@ -96,7 +96,9 @@ def test_page_lists_every_finding_and_victim(report_dir):
 def test_net_names_are_escaped(demo_scan, tmp_path):
     result, _ = demo_scan
     nasty = 'CLK<b class="x">&amp;\'"'
-    hotspots = [replace(result.hotspots[0], victim=nasty, aggressor="<script>alert(1)</script>")]
+    first = result.hotspots[0]
+    worse = replace(first.directions[0], victim=nasty, aggressor="<script>alert(1)</script>")
+    hotspots = [replace(first, directions=[worse] + first.directions[1:])]
     page_html = render_page(replace(result, hotspots=hotspots + result.hotspots[1:]), tmp_path)
     page = read(page_html)
     assert not page.errors

@@ -22,13 +22,18 @@ def run(args, capsys):
 def test_demo_scan_fails_and_writes_reports(tmp_path, capsys):
     code, out, err = run(["scan", str(DEMO), "--rules", str(RULES), "--out", str(tmp_path), "--no-images"], capsys)
     assert code == 1  # the demo board has planted violations
-    assert "FAIL" in out and "caution:" in out and "CTL_LED" in out
+    assert "Overall: fail" in out and "caution:" in out and "CTL_LED" in out
     report = json.loads((tmp_path / "report.json").read_text())
-    assert report["schema"] == "nearfar.report/1" and report["hotspots"][0]["rank"] == 1
+    assert report["schema"] == "nearfar.report/2" and report["hotspots"][0]["rank"] == 1
     rows = list(csv.DictReader((tmp_path / "hotspots.csv").open()))
     assert len(rows) == len(report["hotspots"])
-    assert rows[0]["victim"] == report["hotspots"][0]["victim"]
+    assert rows[0]["victim"] == report["hotspots"][0]["directions"][0]["victim"]
+    assert rows[0]["id"] == report["hotspots"][0]["id"]
     assert rows[0]["fix_spacing_needed_mm"] != ""
+    # one vocabulary: budget used in percent in the CSV as in report.json, statuses pass/warn/fail only
+    assert float(rows[0]["budget_used_pct"]) == report["hotspots"][0]["budget_used_pct"] > 100
+    assert {r["status"] for r in rows} <= {"pass", "warn", "fail"}
+    assert " ok " not in out
     assert not list(tmp_path.glob("*.part")) and not list(tmp_path.glob(".*.part"))
 
 
@@ -43,7 +48,7 @@ def test_lenient_rules_pass_with_exit_zero(tmp_path, capsys):
     rules = tmp_path / "lenient.toml"
     rules.write_text('[[class]]\nname = "all"\nnets = ["*"]\nnext_budget_pct = 95\nfext_budget_pct = 95\n')
     code, out, _ = run(["scan", str(DEMO), "--rules", str(rules), "--top", "3"], capsys)
-    assert code == 0 and "Overall: PASS" in out
+    assert code == 0 and "Overall: pass" in out
 
 
 @pytest.mark.parametrize("args, needle", [
