@@ -2,7 +2,7 @@
 
 Partners come from the net names and the rules (here) and, for nets named from copper
 connectivity, from the routed geometry once the coupled pieces are known
-(:meth:`NetRoles.with_geometry_pairs`). A rules pattern that matches no net is a warning
+(``scanner.coupling.stage.find_pieces``). A rules pattern that matches no net is a warning
 naming the nearest net names: a mistyped pattern must not silently leave nets in the
 default class.
 """

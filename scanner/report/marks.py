@@ -1,10 +1,10 @@
 """What the overlays show: which findings, where their markers sit, which traces they highlight.
 
 Findings are the ranked noise findings (labelled by rank) and the broken
-geometric limits (labelled G1, G2, … in report order). A coupled run scored in
-both directions gives two findings at the same place; they share one marker whose
-label lists both. Trace roles (victim, aggressor) follow the first finding of each
-run. A run that changes layer has a marker on every layer it uses: at the
+geometric limits (labelled G1, G2, … in report order). A noise finding and a
+broken limit on the same coupled run share one marker whose label lists both.
+Trace roles (victim, aggressor) follow the first finding of each run (for a noise
+finding, its worse direction). A run that changes layer has a marker on every layer it uses: at the
 finding's location on its main layer, at the middle of its longest piece on the others.
 """
 from __future__ import annotations
