@@ -2,11 +2,13 @@
 from __future__ import annotations
 
 import importlib
+import signal
 import sys
 
 import click
 
-from scanner.errors import InputError, printable
+from scanner.errors import InputError, InternalError, printable
+from scanner.workspace import Stopped, raise_stopped
 
 #: subcommands, each a module in scanner.commands exposing a click command named ``command``
 COMMAND_MODULES = ("inspect", "section", "scan")
@@ -29,9 +31,19 @@ for _name in COMMAND_MODULES:
 
 
 def main(argv=None) -> int:
-    """Entry point: bad input becomes one line on stderr and exit status 2."""
+    """Entry point: bad input becomes one line on stderr and exit status 2.
+
+    SIGTERM unwinds the run like an interrupt (SIGINT) does, so its staging and unpacking folders are
+    removed on the way out; exit status 128 + the signal's number."""
+    previous = signal.signal(signal.SIGTERM, raise_stopped)
     try:
         rv = cli.main(args=argv, standalone_mode=False)
+    except Stopped as exc:
+        click.echo(f"nearfar: stopped by {exc}", err=True)
+        return _exit(128 + exc.signum)
+    except InternalError as exc:
+        click.echo(f"nearfar: internal error: {printable(str(exc))}", err=True)
+        return _exit(4)
     except InputError as exc:
         click.echo(f"nearfar: error: {exc.one_line()}", err=True)
         return _exit(2)
@@ -45,6 +57,8 @@ def main(argv=None) -> int:
         where = f"{exc.filename}: " if exc.filename else ""
         click.echo(f"nearfar: error: {printable(f'{where}{exc.strerror or exc}')}", err=True)
         return _exit(2)
+    finally:
+        signal.signal(signal.SIGTERM, previous)
     return _exit(rv if isinstance(rv, int) else 0)
 
 

@@ -36,3 +36,8 @@ class InputError(Exception):
             where = self.path if self.line is None else f"{self.path}:{self.line}"
             where += ": "
         return f"{where}{self.message}"
+
+
+class InternalError(Exception):
+    """A fault of nearfar itself, not of the input (a figure that is not a finite number): one line on
+    standard error and exit status 4."""

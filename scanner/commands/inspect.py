@@ -1,7 +1,6 @@
 """``nearfar inspect``: what nearfar read from a board's files, before any scan."""
 from __future__ import annotations
 
-import json
 from pathlib import Path
 
 import click
@@ -10,6 +9,7 @@ from scanner import load_board
 from scanner.board.model import Board
 from scanner.pipeline import board_roles
 from scanner.rules import Rules, load_rules
+from scanner.report.files import json_text
 
 #: faults, pairs and nets quoted on the terminal (all of them are in --json)
 SHOWN_FAULTS = 10
@@ -134,5 +134,6 @@ def command(board, as_json, board_file, rules_path, all_nets):
     and warnings (parser warnings, rules patterns that match no net)."""
     rules = load_rules(rules_path)
     data = inspect_data(load_board(board, board_file=board_file), rules)
-    click.echo(json.dumps(data, indent=2) if as_json else render_inspect(data, all_nets))
+    click.echo(json_text(data, "inspect --json", indent=2) if as_json else render_inspect(data, all_nets),
+               nl=not as_json)
     return 0

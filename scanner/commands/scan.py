@@ -9,6 +9,7 @@ import click
 
 from scanner import load_board, scan
 from scanner.errors import InputError
+from scanner.outputs import check_output_folder
 from scanner.report.files import report_json
 from scanner.report.folder import write_report_folder
 from scanner.report.text import render
@@ -45,16 +46,19 @@ def command(board, rules_path, board_file, out_dir, top, as_json, no_images):
     if out_dir is not None and board.is_dir() and out_dir.resolve() == board.resolve():
         raise InputError("the output folder is the board folder: reports could overwrite input files "
                          "(give a separate folder, or a subfolder)", path=out_dir)
+    if out_dir is not None:
+        check_output_folder(out_dir)  # before the long part: a folder that cannot be written stops the run now
     rules = load_rules(rules_path)
     progress(f"reading {board}")
     the_board = load_board(board, board_file=board_file)
     result = scan(the_board, rules, progress=progress)
 
+    report = report_json(result)  # every value checked before anything is written or printed
     if out_dir is not None:
         progress(f"writing reports to {out_dir}")
         write_report_folder(result, the_board, out_dir, images=not no_images)
     if as_json:
-        click.echo(report_json(result), nl=False)
+        click.echo(report, nl=False)
     else:
         click.echo(render(result, top=top))
     progress("done")

@@ -7,6 +7,7 @@ from pathlib import Path
 
 import numpy as np
 from gerbonara import graphic_objects as go
+from gerbonara.cam import FileSettings
 from gerbonara.excellon import ExcellonParser, ProgramState
 from gerbonara.utils import MM
 
@@ -43,12 +44,44 @@ class _DrillObjects(CheckedObjects):
         super().append(obj)
 
 
+#: settings a drill file may not change once coordinates have been read, and how messages call them
+_SETTLED = {"unit": "unit", "number_format": "number format", "zeros": "zero rule"}
+
+
+def _said(name: str, value) -> str:
+    if name == "unit":
+        return getattr(value, "name", "none")
+    if name == "number_format":
+        return "none" if value == (None, None) else f"{value[0]}.{value[1]}"
+    return str(value)
+
+
+class _SettledSettings(FileSettings):
+    """File settings that refuse a new unit, number format or zero rule once coordinates have been read
+    (``INCH`` or ``M72`` after ``METRIC`` holes): gerbonara would read the rest of the file at the new scale."""
+
+    coordinates_read = False
+
+    def __setattr__(self, name, value):
+        if self.coordinates_read and name in _SETTLED and value != getattr(self, name):
+            raise ValueError(f"{_SETTLED[name]} changed from {_said(name, getattr(self, name))} to "
+                             f"{_said(name, value)} after coordinates were read; one file may not use two scales")
+        super().__setattr__(name, value)
+
+
 class _DrillParser(ExcellonParser):
-    """gerbonara's Excellon parser, refusing holes it would drop: coordinates before any tool is chosen."""
+    """gerbonara's Excellon parser, refusing holes it would drop (coordinates before any tool is chosen) and
+    a unit or number format changed after the first coordinates."""
 
     def __init__(self):
         super().__init__()
+        self.settings = _SettledSettings(number_format=(None, None), zeros="leading")
         self.objects = _DrillObjects("holes and routes")
+
+    def do_move(self, coord_groups):
+        moved = super().do_move(coord_groups)
+        self.settings.coordinates_read = True
+        return moved
 
     def ensure_active_tool(self):
         if self.active_tool is None:

@@ -12,6 +12,7 @@ from scanner.board.model import NO_NET, Board, CopperLayer, CopperShapes, Holes,
 from scanner.errors import InputError
 from scanner.importers.boardfile import BOARD_FILE_NAME, BoardFile, read_board_file
 from scanner.importers.excellon import read_drills
+from scanner.importers.extent import check_copper_on_board, check_holes_on_board, check_netting, check_on_board
 from scanner.importers.gerber_copper import CopperArtwork, read_copper
 from scanner.importers.ipc356 import NetlistRecords, read_ipc356
 from scanner.importers.jobfile import JobFile, read_job_file
@@ -21,10 +22,6 @@ from scanner.importers.planes import classify_planes, copper_box
 from scanner.importers.sources import SourceFile, folder_name, named_kind
 from scanner.input_limits import SEGMENTS, check_count
 from scanner.board.netmap import assign_nets
-
-#: netlist points further than this outside the board's outline (or copper extent) are off the board (mm)
-OFF_BOARD_MARGIN_MM = 1.0
-
 
 class GerberImporter:
     """Claims folders with Gerber files; X2 attributes, when present, score higher."""
@@ -62,10 +59,17 @@ class GerberImporter:
         board_planes = _board_planes(board_cfg, copper, layers)
         classify_planes(layers, [(c.kind_hint, c.hint_source) for c in copper], board_planes, outline)
 
-        holes, drill_logs = _holes(files, by_rel, board_cfg, job)
+        holes, drill_logs, drilled = _holes(files, by_rel, board_cfg, job)
         netlist = _netlist(files, by_rel, board_cfg)
-        if netlist is not None and (off := _off_board(netlist, layers, outline)):
-            warnings.append(off)
+        incomplete: list[str] = []
+        for layer in layers:
+            check_copper_on_board(warnings, incomplete, layer, outline)
+        for name, part in drilled:
+            check_holes_on_board(warnings, incomplete, part.x, part.y, name, layers, outline)
+        if netlist is not None:
+            check_on_board(warnings, incomplete, netlist.x, netlist.y, copper_box(layers, outline), netlist.path,
+                           "netlist points",
+                           lambda k: f"on line {netlist.line[k]} at ({netlist.x[k]:.3f}, {netlist.y[k]:.3f}) mm")
         for a in artworks:
             if (s := a.log.summary()):
                 warnings.append(s)
@@ -79,12 +83,13 @@ class GerberImporter:
             name=design_name([c.source.path.name for c in copper]), source=where, format=fmt, layers=layers, nets=net_names, holes=holes,
             stackup=job.stackup if job else None, outline=outline,
             netlist=_netlist_points(netlist, len(layers)) if netlist is not None else None,
-            warnings=warnings)
+            warnings=warnings, incomplete=incomplete)
         if order_source == "file-names":
             board.warnings.append("copper order taken from file names: "
                                   + ", ".join(c.source.rel for c in copper)
                                   + f" (override with {BOARD_FILE_NAME})")
         assign_nets(board)
+        check_netting(board)
         return board
 
 
@@ -169,25 +174,6 @@ def _unread_files(files: list[SourceFile], job: JobFile | None, cfg: BoardFile |
     return warnings
 
 
-def _off_board(netlist: NetlistRecords, layers: list[CopperLayer], outline) -> str | None:
-    """A warning for netlist points off the board; none of them on it is an error (wrong units or board)."""
-    box = copper_box(layers, outline)
-    if box is None:
-        return None
-    x0, y0, x1, y1 = box
-    m = OFF_BOARD_MARGIN_MM
-    off = (netlist.x < x0 - m) | (netlist.x > x1 + m) | (netlist.y < y0 - m) | (netlist.y > y1 + m)
-    if not off.any():
-        return None
-    extent = f"board x {x0:.3f} to {x1:.3f} mm, y {y0:.3f} to {y1:.3f} mm"
-    if off.all():
-        raise InputError(f"none of the netlist's {len(off)} points lies on the board ({extent}); "
-                         "are its units or the board wrong?", path=netlist.path)
-    k = int(np.flatnonzero(off)[0])
-    return (f"{netlist.path}: {int(off.sum())} of {len(off)} netlist points lie off the board ({extent}), the "
-            f"first on line {netlist.line[k]} at ({netlist.x[k]:.3f}, {netlist.y[k]:.3f}) mm; they name no copper")
-
-
 def _layer(index: int, copper: CopperFile, art: CopperArtwork, net_index: dict) -> CopperLayer:
     def ids(names):
         return np.array([net_index[n] if n else NO_NET for n in names], dtype=np.int32)
@@ -224,17 +210,18 @@ def _holes(files, by_rel, cfg: BoardFile | None, job: JobFile | None):
                   for d in cfg.drills]
     else:
         chosen = [(f, None, None) for f in files if f.kind == "excellon"]
-    parts, logs = [], []
+    logs, named = [], []
     for src, plated, source in chosen:
         if plated is None and job is not None and (fn := job.file_functions.get(src.path.name)):
             if fn[0] in ("Plated", "NonPlated"):
                 plated, source = fn[0] == "Plated", "job-file"
         drill = read_drills(src.path, src.name, plated, source)
-        parts.append(drill.holes)
         logs.append(drill.log)
-    if not parts:
-        return Holes.empty(), logs
-    return Holes(*(np.concatenate([getattr(h, k) for h in parts]) for k in ("x", "y", "diameter", "plated", "net"))), logs
+        named.append((src.name, drill.holes))
+    if not named:
+        return Holes.empty(), logs, named
+    return (Holes(*(np.concatenate([getattr(h, k) for _, h in named]) for k in ("x", "y", "diameter", "plated", "net"))),
+            logs, named)
 
 
 def _netlist(files, by_rel, cfg: BoardFile | None) -> NetlistRecords | None:

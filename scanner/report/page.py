@@ -3,7 +3,7 @@
 No scripts, no fonts, no style sheets or images from the network: the styles are
 inline and the images are the files beside the page (``scanner.report.images``),
 linked by relative names and only where they exist. All text from the board and
-the rules is escaped. Written atomically, after report.json and hotspots.csv.
+the rules is escaped. Written last, after report.json and hotspots.csv.
 """
 from __future__ import annotations
 
@@ -11,7 +11,7 @@ import html
 from importlib import metadata
 from pathlib import Path
 
-from scanner.outputs import write_atomic
+from scanner.outputs import write_file
 from scanner.report import names, palette
 from scanner.report.marks import PASS_SHOWN_TOP, geometric_label, shown_findings
 from scanner.scoring.results import CAUTION, SCHEMA, Hotspot, ScanResult, VictimTotal
@@ -400,12 +400,13 @@ def render_page(result: ScanResult, out_dir: str | Path) -> str:
     folder = _Folder(Path(out_dir))
     body = (_header(result, folder) + _board(result) + _rules(result) + _maps(result, folder)
             + _findings(result, folder) + _geometric(result, folder) + _details(result, folder) + _victims(result.victims) + _assumptions(result)
-            + tag("footer", f"nearfar {_version()}; data schema {SCHEMA}.", class_="muted"))
+            + tag("footer", f"nearfar {_version()}; data schema {SCHEMA}; run {result.run_id}, {result.created}.",
+                  class_="muted"))
     head = Markup(tag("meta", charset="utf-8") + tag("meta", name="viewport", content="width=device-width, initial-scale=1")
                   + tag("title", f"Crosstalk report: {result.board.get('name', '')}") + tag("style", Markup(_style())))
     return Markup("<!DOCTYPE html>\n") + tag("html", [tag("head", head), tag("body", body)], lang="en") + "\n"
 
 
 def write_page(result: ScanResult, out_dir: str | Path) -> Path:
-    """Write report.html into ``out_dir`` (atomically)."""
-    return write_atomic(Path(out_dir) / PAGE_FILE, render_page(result, out_dir))
+    """Write report.html into ``out_dir`` (a staging folder: ``scanner.report.folder``)."""
+    return write_file(Path(out_dir) / PAGE_FILE, render_page(result, out_dir))

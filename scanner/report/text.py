@@ -72,7 +72,7 @@ def render(result: ScanResult, top: int = 20) -> str:
     lines += ["", ENDS_NOTE,
               f"{sm['victims']} victims: {sm['victims_fail']} fail, {sm['victims_warn']} warn, "
               f"{sm['victims_pass']} pass — {sm['coupled_runs']} coupled runs scored. "
-              f"Overall: {result.worst_status}",
+              f"Overall: {result.verdict}",
               f"caution: {CAUTION}"]
     return "\n".join(lines)
 

@@ -69,7 +69,41 @@ def build_result(board: Board, rules: Rules, env: BoardEnvironments, coupled: Co
         runs=coupled.runs, piece_coefficients=coupled.coefficients,
         summary=_summary(scored.noise, scored.hotspots, scored.victims, coupled.runs, coupled.kept)
         | {"list_floor": rules.scan.list_floor},
+        coverage=_coverage(board, env),
+        unchecked=_unchecked(board, env),
     )
+
+
+def _coverage(board: Board, env: BoardEnvironments) -> dict:
+    """Signal trace length that took part in the search, and each copper layer's part in the scan."""
+    signal = [layer for layer in board.layers if layer.index not in env.plane_layers]
+    total = sum(layer.trace_length_mm for layer in signal)
+    scanned = sum(layer.trace_length_mm for layer in signal if layer.index in env.signal)
+    layers = []
+    for layer in board.layers:
+        if layer.index in env.plane_layers:
+            layers.append({"name": layer.name, "scanned": False, "role": "plane", "reference": None,
+                           "reason": "reference plane"})
+        elif layer.index in env.signal:
+            e = env.signal[layer.index]
+            layers.append({"name": layer.name, "scanned": True, "role": "signal",
+                           "reference": f"{e.structure}, {rounded(e.height_mm, 3)} mm to its reference",
+                           "reason": None})
+        else:
+            layers.append({"name": layer.name, "scanned": False, "role": "signal", "reference": None,
+                           "reason": "no reference plane on either side"})
+    return {"scanned_trace_fraction": rounded(scanned / total, 4) if total > 0 else 1.0,
+            "scanned_trace_mm": rounded(scanned, 1), "signal_trace_mm": rounded(total, 1),
+            "scanned_layers": len(env.signal), "layers": layers}
+
+
+def _unchecked(board: Board, env: BoardEnvironments) -> list[str]:
+    """Why the verdict cannot be a pass: import gaps and signal copper the search did not reach."""
+    reasons = list(board.incomplete)
+    for layer in board.layers:
+        if layer.index not in env.plane_layers and layer.index not in env.signal and len(layer.segments):
+            reasons.append(f"layer {layer.name} not scanned: no reference plane on either side")
+    return reasons
 
 
 def _board_summary(board: Board) -> dict:

@@ -25,7 +25,9 @@ def test_demo_scan_fails_and_writes_reports(tmp_path, capsys):
     assert "Overall: fail" in out and "caution:" in out and "CTL_LED" in out
     report = json.loads((tmp_path / "report.json").read_text())
     assert report["schema"] == "nearfar.report/2" and report["hotspots"][0]["rank"] == 1
-    rows = list(csv.DictReader((tmp_path / "hotspots.csv").open()))
+    with (tmp_path / "hotspots.csv").open() as fh:
+        assert fh.readline() == f"# nearfar run {report['run_id']}, {report['created']}\n"
+        rows = list(csv.DictReader(fh))
     assert len(rows) == len(report["hotspots"])
     assert rows[0]["victim"] == report["hotspots"][0]["directions"][0]["victim"]
     assert rows[0]["id"] == report["hotspots"][0]["id"]
