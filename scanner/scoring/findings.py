@@ -58,6 +58,10 @@ def hotspot_records(board, roles: NetRoles, envs, runs: CoupledRuns, d: Directed
     id_of_run = dict(zip(r.tolist(), ids))
     kb_max = np.zeros(len(runs))
     np.maximum.at(kb_max, d.run, noise.kb_max)
+    partners: dict[int, set[int]] = {}
+    for plan in plans.victim_runs.values():
+        for run in plan:
+            partners.setdefault(run, set()).update(plan)
     columns = zip(
         r.tolist(), ids, main_layer, [layer_text[m] for m in runs.layer_mask[r].tolist()],
         broadside_runs[r].tolist(), _col(runs.coupled_length_mm[r], MM_DIGITS),
@@ -74,7 +78,7 @@ def hotspot_records(board, roles: NetRoles, envs, runs: CoupledRuns, d: Directed
             layers=layers, structure=f"{kind} with broadside coupling" if broadside else kind,
             coupled_length_mm=length, min_spacing_mm=s_min, mean_spacing_mm=s_mean, x_mm=xx, y_mm=yy,
             extent_mm=list(extent), bbox_mm=list(bbox), kb_max=kb, strong_coupling=kb > STRONG_KB,
-            directions=both, run=run, fix=_run_fix(run, plans, id_of_run)))
+            directions=both, run=run, fix=_run_fix(run, plans, partners, id_of_run)))
     return out
 
 
@@ -107,12 +111,12 @@ def _directions(board, roles: NetRoles, d: DirectedRuns, noise: Noise, j: np.nda
             for jj, st, victim, aggressor, ac, vc, mdl, n_mv, f_mv, n_pct, f_pct, n_budget, f_budget, used in rows]
 
 
-def _run_fix(run: int, plans: FixPlans, id_of_run: dict[int, str]) -> dict | None:
+def _run_fix(run: int, plans: FixPlans, partners: dict[int, set[int]], id_of_run: dict[int, str]) -> dict | None:
+    """The run's change, with the ids of the runs that share a victim's plan with it."""
     fix = plans.run_fix.get(run)
     if fix is None:
         return None
-    others = {r for plan in plans.victim_runs.values() if run in plan for r in plan} - {run}
-    return dict(fix, together_with=sorted(id_of_run[r] for r in others))
+    return dict(fix, together_with=sorted(id_of_run[r] for r in partners.get(run, set()) - {run}))
 
 
 def with_exact_checks(hotspots: list[Hotspot], runs, envs, broadside_runs: np.ndarray) -> list[Hotspot]:

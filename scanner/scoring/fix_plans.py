@@ -74,49 +74,66 @@ def plan_fixes(rules: Rules, roles: NetRoles, d: DirectedRuns, noise: Noise, sum
     context = (rules, roles, d, noise, sums, runs, lookup, coefficients)
     for option in OPTIONS:
         _withdraw_failing(option, per_run, targets.victim_runs, context)
-    run_fix = {r: _fix_record(r, per_run, solved, sub, broadside_runs, board, lookup) for r in per_run}
+    reach = np.full(len(runs), np.inf)
+    np.minimum.at(reach, sub.run, np.nan_to_num(solved.reach_mm, nan=np.inf))
+    run_fix = {r: _fix_record(r, per_run, reach[r], broadside_runs, board, lookup) for r in per_run}
     complete = {v: all(_offered(run_fix[r]) for r in rs) for v, rs in targets.victim_runs.items()}
     return FixPlans(run_fix, targets.victim_runs, complete, targets.each_needed)
 
 
 def _targets(rules: Rules, roles: NetRoles, d: DirectedRuns, noise: Noise, sums: VictimSums) -> _Targets:
-    """Directed runs to change and the budgets each must meet (module docstring)."""
+    """Directed runs to change and the budgets each must meet (module docstring), for all victims at once."""
     limit = rules.scan.warn_fraction * FIX_MARGIN
     rows, group = sums.rows, sums.group
     next_share = np.abs(noise.next_v[rows]) / sums.next_budget_v[group]
     fext_share = np.abs(noise.fext_v[rows]) / sums.fext_budget_v[group]
     share_used = np.maximum(next_share, fext_share)
+    n = len(sums)
+    # per victim, couplings worst first; only victims that warn or fail make a plan
     order = np.lexsort((-share_used, group))
-    bounds = np.searchsorted(group[order], np.arange(len(sums) + 1))
+    order = order[sums.status[group[order]] > 0]
+    g, used = group[order], share_used[order]
+    must = noise.used[rows[order]] >= rules.scan.warn_fraction
+    optional = np.where(must, 0.0, used)
+    rest_all = np.bincount(g, weights=optional, minlength=n)
+    # an optional coupling joins while the ones left alone use more than REST_SHARE of the limit
+    before = _cumsum_within(g, optional) - optional
+    chosen = must | ((rest_all[g] - before > REST_SHARE * limit) & (used > 0))
+    rest = rest_all - np.bincount(g, weights=optional * chosen, minlength=n)
+    chosen_sum = np.bincount(g, weights=used * chosen, minlength=n)
+    planned = chosen & (chosen_sum[g] > 0)
+    part = np.where(planned, (limit - np.maximum(rest, 0.0))[g] * used / np.where(chosen_sum[g] > 0, chosen_sum[g], 1), 0)
+    # no single chosen coupling, even removed, brings the victim within the pass limit
+    next_all = np.bincount(group, weights=next_share, minlength=n)
+    fext_all = np.bincount(group, weights=fext_share, minlength=n)
+    without = np.maximum(next_all[g] - next_share[order], fext_all[g] - fext_share[order])
+    count = np.bincount(g, weights=planned, minlength=n)
+    short = np.bincount(g, weights=planned & (without < rules.scan.warn_fraction), minlength=n)
+    each = (count > 1) & (short == 0)
+
+    sel = np.flatnonzero(planned)
+    row_sel, g_sel, part_sel = rows[order[sel]], g[sel], part[sel]
     members = _member_rows(roles, d, noise)
-    out_rows, out_next, out_fext, victim_runs, each_needed = [], [], [], {}, {}
-    for g in np.flatnonzero(sums.status > 0).tolist():
-        k = order[bounds[g]:bounds[g + 1]]
-        used = share_used[k]
-        chosen = noise.used[rows[k]] >= rules.scan.warn_fraction
-        rest = float(used[~chosen].sum())
-        for i in range(len(k)):
-            if rest <= REST_SHARE * limit:
-                break
-            if not chosen[i]:
-                chosen[i] = True
-                rest -= float(used[i])
-        if not chosen.any() or used[chosen].sum() <= 0:
-            continue
-        share = (limit - max(rest, 0.0)) * used[chosen] / used[chosen].sum()
-        plan_runs = []
-        for row, part in zip(rows[k[chosen]].tolist(), share.tolist()):
-            own = members.get(row, [row])
-            for m in own:
-                out_rows.append(m)
-                out_next.append(min(part * sums.next_budget_v[g], limit * d.next_budget_v[row]) / len(own))
-                out_fext.append(min(part * sums.fext_budget_v[g], limit * d.fext_budget_v[row]) / len(own))
-                plan_runs.append(int(d.run[m]))
-        victim_runs[int(sums.net[g])] = list(dict.fromkeys(plan_runs))
-        without_one = np.maximum(next_share[k].sum() - next_share[k][chosen], fext_share[k].sum() - fext_share[k][chosen])
-        each_needed[int(sums.net[g])] = bool(chosen.sum() > 1 and np.all(without_one >= rules.scan.warn_fraction))
+    out_rows, out_next, out_fext, victim_runs = [], [], [], {}
+    for row, gg, pp in zip(row_sel.tolist(), g_sel.tolist(), part_sel.tolist()):
+        own = members.get(row, [row])
+        for m in own:
+            out_rows.append(m)
+            out_next.append(min(pp * sums.next_budget_v[gg], limit * d.next_budget_v[row]) / len(own))
+            out_fext.append(min(pp * sums.fext_budget_v[gg], limit * d.fext_budget_v[row]) / len(own))
+            victim_runs.setdefault(int(sums.net[gg]), []).append(int(d.run[m]))
+    victim_runs = {v: list(dict.fromkeys(r)) for v, r in victim_runs.items()}
+    each_needed = {int(sums.net[k]): bool(each[k]) for k in np.unique(g_sel).tolist()}
     return _Targets(np.asarray(out_rows, dtype=np.int64), np.asarray(out_next), np.asarray(out_fext), victim_runs,
                     each_needed)
+
+
+def _cumsum_within(group: np.ndarray, values: np.ndarray) -> np.ndarray:
+    """Cumulative sums restarting at each new value of ``group`` (rows sorted by group)."""
+    total = np.cumsum(values)
+    first = np.r_[True, group[1:] != group[:-1]] if len(group) else np.zeros(0, dtype=bool)
+    offset = np.maximum.accumulate(np.where(first, np.arange(len(group)), 0)) if len(group) else group
+    return total - (total[offset] - values[offset])
 
 
 def _member_rows(roles: NetRoles, d: DirectedRuns, noise: Noise) -> dict[int, list[int]]:
@@ -150,18 +167,26 @@ def _rounded_and_checked(sub: DirectedRuns, solved: RowFixes, runs, lookup, coef
 
 
 def _per_run(run_of_row: np.ndarray, values: dict[str, np.ndarray]) -> dict[int, dict[str, float | None]]:
-    """One value per run and option, meeting every targeted direction of the run (None when one has none)."""
-    out: dict[int, dict[str, float | None]] = {}
-    pick = {"spacing": max, "length": min, "layer": lambda v: v[0] if len(set(v)) == 1 else -1.0}
-    for r in np.unique(run_of_row).tolist():
-        mine = run_of_row == r
-        entry = {}
-        for option, vals in values.items():
-            v = vals[mine].tolist()
-            bad = any(np.isnan(x) or (option == "layer" and x < 0) for x in v)
-            entry[option] = None if bad else float(pick[option](v))
-        out[int(r)] = entry
-    return out
+    """One value per run and option, meeting every targeted direction of the run (None when one has none):
+    the widest spacing, the shortest length, the layer when all agree."""
+    runs, inverse = np.unique(run_of_row, return_inverse=True)
+    inverse = inverse.ravel()
+    n = len(runs)
+
+    def per_run(vals, ufunc, start):
+        out = np.full(n, start)
+        ufunc.at(out, inverse, np.where(np.isnan(vals), start, vals))
+        missing = np.bincount(inverse, weights=np.isnan(vals), minlength=n) > 0
+        return np.where(missing, np.nan, out)
+
+    spacing = per_run(values["spacing"], np.maximum, -np.inf)
+    length = per_run(values["length"], np.minimum, np.inf)
+    layer = np.where(values["layer"] < 0, np.nan, values["layer"])
+    low, high = per_run(layer, np.minimum, np.inf), per_run(layer, np.maximum, -np.inf)
+    layer = np.where(low == high, low, np.nan)
+    none = lambda v: None if np.isnan(v) else float(v)  # noqa: E731
+    return {int(r): {"spacing": none(a), "length": none(b), "layer": none(c)}
+            for r, a, b, c in zip(runs.tolist(), spacing.tolist(), length.tolist(), layer.tolist())}
 
 
 def _withdraw_failing(option: str, per_run: dict, victim_runs: dict[int, list[int]], context) -> None:
@@ -201,7 +226,7 @@ def _peaks_with(option: str, sub: DirectedRuns, value: np.ndarray, runs, lookup,
     return peaks_at_layer(sub, runs, lookup, value)[:2]
 
 
-def _fix_record(run: int, per_run: dict, solved: RowFixes, sub: DirectedRuns, broadside_runs, board, lookup) -> dict:
+def _fix_record(run: int, per_run: dict, reach_mm: float, broadside_runs, board, lookup) -> dict:
     entry = per_run[run]
     layer = entry["layer"]
     fix = {"spacing_needed_mm": None if entry["spacing"] is None else round(entry["spacing"], 3),
@@ -213,8 +238,7 @@ def _fix_record(run: int, per_run: dict, solved: RowFixes, sub: DirectedRuns, br
         notes.append("the run couples broadside to the neighbouring signal layer: offset the traces in plan view, "
                      "shorten the overlap, or put a plane between the layers")
     elif entry["spacing"] is None:
-        reach = np.nanmin(solved.reach_mm[sub.run == run])
-        notes.append(f"no uniform spacing up to {reach:.3f} mm meets the budget" if np.isfinite(reach)
+        notes.append(f"no uniform spacing up to {reach_mm:.3f} mm meets the budget" if np.isfinite(reach_mm)
                      else "no uniform spacing meets the budget")
     if entry["length"] is None:
         notes.append("no shorter coupled length meets the budget")
