@@ -147,20 +147,24 @@ def victim_totals(board, roles: NetRoles, runs: CoupledRuns, d: DirectedRuns, no
     order = np.lexsort((-noise.used[rows], group))
     bounds = np.searchsorted(group[order], np.arange(len(sums) + 1))
     names = board.nets
-    partner = roles.partner
-    main = runs.main_layer
+    # every aggressor record built column-wise once, then handed out victim by victim
+    m = rows[order]
+    a, r = d.aggressor[m], d.run[m]
+    partner = roles.partner[a]
+    layer_names = [layer.name for layer in board.layers]
+    records = [{"aggressor": names[ai] if not odd else f"{names[ai]} / {names[pi]}", "budget_used_pct": used,
+                "next_mv": n_mv, "fext_mv": f_mv, "layer": layer_names[li], "x_mm": x, "y_mm": y,
+                "finding": id_of_run.get(ri)}
+               for ai, pi, odd, used, n_mv, f_mv, li, x, y, ri in zip(
+                   a.tolist(), partner.tolist(), noise.odd_mode[m].tolist(), _col(100 * noise.used[m], PCT_DIGITS),
+                   _col(1e3 * noise.next_v[m], MV_DIGITS), _col(1e3 * noise.fext_v[m], MV_DIGITS),
+                   runs.main_layer[r].tolist(), _col(runs.worst_x_mm[r], MM_DIGITS),
+                   _col(runs.worst_y_mm[r], MM_DIGITS), r.tolist())]
     out = []
     for g in np.argsort(-sums.used, kind="stable").tolist():
-        members = rows[order[bounds[g]:bounds[g + 1]]]
         net = int(sums.net[g])
         swing_mv = 1e3 * sums.swing_v[g]
-        aggressors = [{
-            "aggressor": names[a] if not noise.odd_mode[m] else f"{names[a]} / {names[int(partner[a])]}",
-            "budget_used_pct": rounded(100 * noise.used[m], PCT_DIGITS),
-            "next_mv": rounded(1e3 * noise.next_v[m], MV_DIGITS), "fext_mv": rounded(1e3 * noise.fext_v[m], MV_DIGITS),
-            "layer": board.layers[int(main[r])].name, "x_mm": rounded(runs.worst_x_mm[r], MM_DIGITS),
-            "y_mm": rounded(runs.worst_y_mm[r], MM_DIGITS), "finding": id_of_run.get(int(r))}
-            for m, a, r in zip(members.tolist(), d.aggressor[members].tolist(), d.run[members].tolist())]
+        aggressors = records[bounds[g]:bounds[g + 1]]
         out.append(VictimTotal(
             net=names[net], net_class=roles.classes[int(roles.class_index[net])].name,
             status=STATUS_NAMES[int(sums.status[g])], budget_used_pct=rounded(100 * sums.used[g], PCT_DIGITS),
