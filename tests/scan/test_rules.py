@@ -62,6 +62,8 @@ def test_full_file_parses(tmp_path):
     ("[stackup]\nlayers = [{ kind = \"dielectric\", thickness_mm = 0.1, epsilon_r = 0.5 }]\n", "epsilon_r must be"),
     ("[stackup]\nlayers = [{ kind = \"copper\", thickness_mm = -0.1 }]\n", "thickness_mm must be"),
     ("[[diff_pair]]\npositive = \"A*_P\"\nnegative = \"A_N\"\n", "same number of '*'"),
+    ("[scan]\npair_by_geometry = \"always\"\n", "pair_by_geometry must be one of"),
+    ("[[class]]\nname = \"x\"\nnets = [\"A*\"]\ntermination = \"high_z\"\n", "termination must be one of"),
 ])
 def test_bad_rules_name_the_problem(tmp_path, text, needle):
     p = tmp_path / "r.toml"
