@@ -2,16 +2,23 @@
 from __future__ import annotations
 
 import importlib
+import os
 import signal
 import sys
+import traceback
 
 import click
 
 from scanner.errors import InputError, InternalError, printable
 from scanner.workspace import Stopped, raise_stopped
 
+#: exit status when nearfar itself fails (0 pass, 1 fail, 2 bad input, 3 incomplete come from the commands)
+INTERNAL_ERROR = 4
+#: set to 1 to print the traceback of an internal error
+DEBUG_VARIABLE = "NEARFAR_DEBUG"
+
 #: subcommands, each a module in scanner.commands exposing a click command named ``command``
-COMMAND_MODULES = ("inspect", "section", "scan")
+COMMAND_MODULES = ("inspect", "section", "scan", "stackup", "compare", "waive")
 
 
 @click.group(context_settings={"help_option_names": ["-h", "--help"]})
@@ -43,7 +50,7 @@ def main(argv=None) -> int:
         return _exit(128 + exc.signum)
     except InternalError as exc:
         click.echo(f"nearfar: internal error: {printable(str(exc))}", err=True)
-        return _exit(4)
+        return _exit(INTERNAL_ERROR)
     except InputError as exc:
         click.echo(f"nearfar: error: {exc.one_line()}", err=True)
         return _exit(2)
@@ -57,6 +64,12 @@ def main(argv=None) -> int:
         where = f"{exc.filename}: " if exc.filename else ""
         click.echo(f"nearfar: error: {printable(f'{where}{exc.strerror or exc}')}", err=True)
         return _exit(2)
+    except Exception as exc:  # noqa: BLE001 - a bug must never read as a verdict on the board
+        click.echo(f"nearfar: internal error: {printable(f'{type(exc).__name__}: {exc}')} (a fault in nearfar, "
+                   f"not a verdict on the board; set {DEBUG_VARIABLE}=1 for the traceback)", err=True)
+        if os.environ.get(DEBUG_VARIABLE):
+            traceback.print_exc()
+        return _exit(INTERNAL_ERROR)
     finally:
         signal.signal(signal.SIGTERM, previous)
     return _exit(rv if isinstance(rv, int) else 0)

@@ -1,12 +1,17 @@
 """``nearfar inspect``: what nearfar read from a board's files, before any scan."""
 from __future__ import annotations
 
+import dataclasses
 from pathlib import Path
 
 import click
 
 from scanner import load_board
+from scanner.board.layerstack import board_environments, describe_default, effective_stackup
 from scanner.board.model import Board
+from scanner.board.references import describe_reference, plane_evidence
+from scanner.commands.options import stackup_option, stackup_override
+from scanner.errors import InputError
 from scanner.pipeline import board_roles
 from scanner.rules import Rules, load_rules
 from scanner.report.files import json_text
@@ -21,6 +26,7 @@ def inspect_data(board: Board, rules: Rules | None = None) -> dict:
     """The board summary as plain data (the ``--json`` output): layers, stackup, netting, and every net with
     its class, role and differential partner as a scan with these rules would take them."""
     netting = board.netting
+    references = layer_references(board)
     roles = board_roles(board, rules)
     return {
         "name": board.name,
@@ -31,6 +37,7 @@ def inspect_data(board: Board, rules: Rules | None = None) -> dict:
             "kind_source": layer.kind_source, "file": layer.path, "segments": len(layer.segments),
             "shapes": len(layer.shapes), "trace_length_mm": round(layer.trace_length_mm, 3),
             "fill_ratio": None if layer.fill_ratio is None else round(layer.fill_ratio, 4),
+            "reference": references[layer.index][0], "reference_evidence": references[layer.index][1],
         } for layer in board.layers],
         "nets": len(board.nets),
         "holes": {"plated": int(board.holes.plated.sum()), "non_plated": int((~board.holes.plated).sum())},
@@ -38,6 +45,8 @@ def inspect_data(board: Board, rules: Rules | None = None) -> dict:
             "kind": s.kind, "name": s.name, "thickness_mm": s.thickness_mm, "epsilon_r": s.epsilon_r,
             "copper_index": s.copper_index} for s in board.stackup.layers],
         "stackup_source": None if board.stackup is None else board.stackup.source,
+        "stackup_path": None if board.stackup is None else board.stackup.path,
+        "stackup_assumed": describe_default(len(board.layers)) if board.stackup is None and board.layers else None,
         "netting": None if netting is None else {
             "method": netting.method,
             "netted_trace_fraction": round(netting.netted_trace_fraction, 6),
@@ -52,6 +61,24 @@ def inspect_data(board: Board, rules: Rules | None = None) -> dict:
         "net_list": roles.net_table(board.nets),
         "warnings": list(roles.warnings) + list(board.warnings),
     }
+
+
+def layer_references(board: Board) -> list[tuple[str, str | None]]:
+    """Per copper layer, what a scan without rules would reference its traces to, and the evidence."""
+    try:
+        env = board_environments(board, None)
+    except InputError as exc:
+        return [(f"unknown: {exc.message}", None)] * len(board.layers)
+    out = []
+    for layer in board.layers:
+        if layer.index in env.signal:
+            words = describe_reference(board, env.signal[layer.index], env.plane_layers)
+            out.append((words.reference, words.evidence))
+        elif layer.index in env.plane_layers:
+            out.append(("reference plane, no traces on it", plane_evidence(board, layer.index, env.plane_layers)))
+        else:
+            out.append((f"not scanned: {env.skipped.get(layer.index)}", None))
+    return out
 
 
 def _fault(f) -> dict:
@@ -72,15 +99,20 @@ def render_inspect(data: dict, all_nets: bool = False) -> str:
              Path(l["file"] or "").name) for l in data["layers"]]
     out += _table(("layer", "side", "use", "decided by", "traces", "length mm", "shapes", "poured", "file"),
                   rows, {4, 5, 6, 7})
+    out += ["", "references (from the board's stackup, or the default one; a rules file can change them):"]
+    out += [f"  {l['name']}: {l['reference']}" + (f" ({l['reference_evidence']})" if l["reference_evidence"] else "")
+            for l in data["layers"]]
     holes = data["holes"]
     out += ["", f"nets: {data['nets']}    holes: {holes['plated']} plated, {holes['non_plated']} non-plated"]
     if data["stackup"]:
-        out += ["", f"stackup ({data['stackup_source']}):"]
+        path = f", {data['stackup_path']}" if data.get("stackup_path") else ""
+        out += ["", f"stackup ({data['stackup_source']}{path}):"]
         srows = [(s["kind"], s["name"], f"{s['thickness_mm']:.4f}",
                   "" if s["epsilon_r"] is None else f"{s['epsilon_r']:.2f}") for s in data["stackup"]]
         out += ["  " + line for line in _table(("material", "name", "thick mm", "eps_r"), srows, {2, 3})]
     else:
-        out += ["", "stackup: none in the files (give one in the rules file)"]
+        out += ["", "stackup: none in the files; a scan assumes a typical build, "
+                    f"{data['stackup_assumed']} (give the real one with --stackup FILE or in the rules file)"]
     n = data["netting"]
     if n:
         out += ["", f"netting by {n['method']}: {100 * n['netted_trace_fraction']:.1f}% of trace length carries a "
@@ -128,12 +160,18 @@ def _net_lines(nets: list[dict], all_nets: bool) -> list[str]:
 @click.option("--rules", "rules_path", type=click.Path(path_type=Path), default=None,
               help="Rules file (TOML) whose classes, power nets and pairs to apply; defaults without one.")
 @click.option("--all-nets", is_flag=True, help=f"List every net on the terminal (the first {SHOWN_NETS} otherwise).")
-def command(board, as_json, board_file, rules_path, all_nets):
+@stackup_option
+def command(board, as_json, board_file, rules_path, all_nets, stackup_path):
     """Show what nearfar reads from BOARD (a folder, .zip, or ODB++ job .tgz): copper layers in stack order, planes,
-    nets with their class, role and differential partner, stackup, how well the copper matched the netlist,
-    and warnings (parser warnings, rules patterns that match no net)."""
+    nets with their class, role and differential partner, stackup, how well the copper matched the netlist, and
+    warnings (parser warnings, rules patterns that match no net). With --stackup, the stackup shown is the file's
+    (checked against the board's copper layers)."""
     rules = load_rules(rules_path)
-    data = inspect_data(load_board(board, board_file=board_file), rules)
+    the_board = load_board(board, board_file=board_file)
+    if stackup_path is not None:
+        stackup, _ = effective_stackup(the_board, stackup_override(stackup_path))
+        the_board = dataclasses.replace(the_board, stackup=stackup)
+    data = inspect_data(the_board, rules)
     click.echo(json_text(data, "inspect --json", indent=2) if as_json else render_inspect(data, all_nets),
                nl=not as_json)
     return 0

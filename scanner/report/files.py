@@ -13,7 +13,7 @@ CSV_COLUMNS = ("rank", "id", "status", "victim", "aggressor", "victim_class", "a
                "coupled_length_mm", "min_spacing_mm", "mean_spacing_mm", "x_mm", "y_mm", "next_mv", "fext_mv",
                "next_pct", "fext_pct", "next_budget_mv", "fext_budget_mv", "budget_used_pct", "aggressor_model",
                "other_way_status", "other_way_budget_used_pct", "fix_spacing_needed_mm", "fix_max_length_mm",
-               "fix_layer", "fix_together_with")
+               "fix_layer", "fix_together_with", "waived_by")
 
 #: first characters that make a spreadsheet read a cell as a formula (or hide the start of one)
 FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
@@ -72,5 +72,6 @@ def hotspots_csv(result: ScanResult) -> str:
         d["fix_max_length_mm"] = fix.get("max_length_mm")
         d["fix_layer"] = (fix.get("alternative_layer") or {}).get("layer")
         d["fix_together_with"] = " ".join(fix.get("together_with") or []) or None
+        d["waived_by"] = h.waiver["id"] if h.waived else None
         w.writerow(["" if d.get(k) is None else spreadsheet_safe(d.get(k)) for k in CSV_COLUMNS])
     return buf.getvalue()

@@ -13,8 +13,9 @@ from scanner.scoring.exact_check import EXACT_CHECKS, exact_peaks
 from scanner.scoring.fix_plans import FixPlans
 from scanner.scoring.noise import Noise
 from scanner.scoring.results import (MM_DIGITS, MV_DIGITS, PCT_DIGITS, SPACING_DIGITS, STATUS_NAMES, Direction,
-                                     Hotspot, VictimTotal, finding_id, rounded)
+                                     Hotspot, VictimTotal, finding_id, rounded, status_code)
 from scanner.scoring.totals import VictimSums
+from scanner.signoff.waiver_match import WaiverMatch
 
 #: Kb above which weak-coupling estimates lose accuracy and the exact simulation is run beside them
 STRONG_KB = 0.1
@@ -136,10 +137,14 @@ def with_exact_checks(hotspots: list[Hotspot], runs, envs, broadside_runs: np.nd
     return out
 
 
-def victim_totals(board, roles: NetRoles, runs: CoupledRuns, d: DirectedRuns, noise: Noise, sums: VictimSums,
-                  hotspots: list[Hotspot], plans: FixPlans) -> list[VictimTotal]:
+def victim_totals(board, rules: Rules, roles: NetRoles, runs: CoupledRuns, d: DirectedRuns, noise: Noise,
+                  sums: VictimSums, hotspots: list[Hotspot], plans: FixPlans,
+                  waived: WaiverMatch | None = None) -> list[VictimTotal]:
     """Per victim over all its aggressors: worst-case sum and root-sum-square, consistent status, where each
-    aggressor couples, and the plan that brings a warn or fail victim within budget."""
+    aggressor couples, and the plan that brings a warn or fail victim within budget.
+
+    Contributions ``waived`` covers (per directed run; waivers from ``rules``) are left out of the totals and
+    the status (``sums``), and reported beside them."""
     if len(sums) == 0:
         return []
     rows, group = sums.rows, sums.group
@@ -165,6 +170,12 @@ def victim_totals(board, roles: NetRoles, runs: CoupledRuns, d: DirectedRuns, no
         net = int(sums.net[g])
         swing_mv = 1e3 * sums.swing_v[g]
         aggressors = records[bounds[g]:bounds[g + 1]]
+        gone = m[bounds[g]:bounds[g + 1]][~sums.counted[order[bounds[g]:bounds[g + 1]]]]
+        extra = {} if len(gone) == 0 else {
+            "waived_aggressors": [names[int(x)] for x in d.aggressor[gone]],
+            "waivers": list(dict.fromkeys(rules.waivers[w].id for w in waived.waiver[gone].tolist())),
+            "budget_used_with_waived_pct": rounded(100 * sums.used_with_waived[g], PCT_DIGITS),
+            "status_with_waived": STATUS_NAMES[int(status_code(sums.used_with_waived[g], rules.scan.warn_fraction))]}
         out.append(VictimTotal(
             net=names[net], net_class=roles.classes[int(roles.class_index[net])].name,
             status=STATUS_NAMES[int(sums.status[g])], budget_used_pct=rounded(100 * sums.used[g], PCT_DIGITS),
@@ -177,7 +188,7 @@ def victim_totals(board, roles: NetRoles, runs: CoupledRuns, d: DirectedRuns, no
             fext_worst_mv=rounded(1e3 * sums.fext_worst_v[g], MV_DIGITS),
             next_budget_mv=rounded(1e3 * sums.next_budget_v[g], MV_DIGITS),
             fext_budget_mv=rounded(1e3 * sums.fext_budget_v[g], MV_DIGITS),
-            aggressors=aggressors, fix=_victim_fix(net, plans, id_of_run)))
+            aggressors=aggressors, fix=_victim_fix(net, plans, id_of_run), **extra))
     return out
 
 

@@ -87,13 +87,13 @@ def _targets(rules: Rules, roles: NetRoles, d: DirectedRuns, noise: Noise, sums:
     rows, group = sums.rows, sums.group
     next_share = np.abs(noise.next_v[rows]) / sums.next_budget_v[group]
     fext_share = np.abs(noise.fext_v[rows]) / sums.fext_budget_v[group]
-    share_used = np.maximum(next_share, fext_share)
+    share_used = np.maximum(next_share, fext_share) * sums.counted  # a waived contribution needs no change
     n = len(sums)
     # per victim, couplings worst first; only victims that warn or fail make a plan
     order = np.lexsort((-share_used, group))
     order = order[sums.status[group[order]] > 0]
     g, used = group[order], share_used[order]
-    must = noise.used[rows[order]] >= rules.scan.warn_fraction
+    must = (noise.used[rows[order]] >= rules.scan.warn_fraction) & sums.counted[order]
     optional = np.where(must, 0.0, used)
     rest_all = np.bincount(g, weights=optional, minlength=n)
     # an optional coupling joins while the ones left alone use more than REST_SHARE of the limit
@@ -104,8 +104,8 @@ def _targets(rules: Rules, roles: NetRoles, d: DirectedRuns, noise: Noise, sums:
     planned = chosen & (chosen_sum[g] > 0)
     part = np.where(planned, (limit - np.maximum(rest, 0.0))[g] * used / np.where(chosen_sum[g] > 0, chosen_sum[g], 1), 0)
     # no single chosen coupling, even removed, brings the victim within the pass limit
-    next_all = np.bincount(group, weights=next_share, minlength=n)
-    fext_all = np.bincount(group, weights=fext_share, minlength=n)
+    next_all = np.bincount(group, weights=next_share * sums.counted, minlength=n)
+    fext_all = np.bincount(group, weights=fext_share * sums.counted, minlength=n)
     without = np.maximum(next_all[g] - next_share[order], fext_all[g] - fext_share[order])
     count = np.bincount(g, weights=planned, minlength=n)
     short = np.bincount(g, weights=planned & (without < rules.scan.warn_fraction), minlength=n)

@@ -118,7 +118,7 @@ def _bisect(fn, lo, hi, increasing: bool) -> np.ndarray:
 def _alternative_layers(sub: DirectedRuns, runs, lookup: CouplingLookup):
     """The nearest stripline layer for runs not in stripline, and the share of target used there."""
     n = len(sub)
-    striplines = sorted(i for i, e in lookup.envs.items() if e.structure == "stripline")
+    striplines = sorted(i for i, e in lookup.envs.items() if e.structure == "stripline" and not e.on_plane)
     if not striplines:
         return np.full(n, -1), np.full(n, np.nan)
     main = runs.main_layer[sub.run]

@@ -38,6 +38,11 @@ def rounded(x, digits: int = 3) -> float:
     return round(float(x), digits)
 
 
+def is_waived(waiver: dict | None) -> bool:
+    """A finding's waiver mark says a waiver is in force for it."""
+    return waiver is not None and waiver["state"] == "waived"
+
+
 def status_for(fraction: float, warn_fraction: float) -> str:
     """pass / warn / fail from the fraction of budget used."""
     return STATUS_NAMES[status_code(fraction, warn_fraction)]
@@ -88,6 +93,12 @@ class Direction:
     victim_swing_v: float
     index: int  # index into the scan's directed runs
     exact: dict | None = None  # exact line simulation of a strong-coupling finding
+    #: the waiver matching this direction: id, state (waived / lapsed), reason, who and when, note
+    waiver: dict | None = None
+
+    @property
+    def waived(self) -> bool:
+        return is_waived(self.waiver)
 
     def to_dict(self) -> dict:
         d = {k: getattr(self, k) for k in self.__slots__}
@@ -129,6 +140,12 @@ class Hotspot:
         if name in Direction.__slots__:
             return getattr(self.directions[0], name)
         raise AttributeError(name)
+
+    @property
+    def waived(self) -> bool:
+        """A waiver covers every direction of the run that warns or fails (and at least one)."""
+        bad = [x for x in self.directions if x.status != "pass" or x.waiver]
+        return bool(bad) and all(x.waived for x in bad)
 
     def toward(self, victim: str) -> "Hotspot":
         """The same run with ``victim``'s direction first (read through by ``victim``, ``next_mv`` …)."""
@@ -174,6 +191,12 @@ class VictimTotal:
     fext_budget_mv: float
     aggressors: list[dict]  # most budget first: aggressor, budget_used_pct, next_mv, fext_mv, layer, x_mm, y_mm, finding
     fix: dict | None = None
+    #: with waivers: the aggressors whose contributions were waived (left out of the totals above), the
+    #: waivers that did it, and the budget used and status had they counted
+    waived_aggressors: list[str] = field(default_factory=list)
+    waivers: list[str] = field(default_factory=list)
+    budget_used_with_waived_pct: float | None = None
+    status_with_waived: str | None = None
 
     def to_dict(self) -> dict:
         return asdict(self)
@@ -199,13 +222,19 @@ class ScanResult:
     coverage: dict = field(default_factory=dict)
     #: reasons part of the board was not checked; any makes the verdict "incomplete" unless it fails
     unchecked: list[str] = field(default_factory=list)
+    impedance: object = None  # scanner.scoring.impedance.ImpedanceCheck
     #: this run's id and time, in report.json and named by every other file of the run
     run_id: str = field(default_factory=new_run_id)
     created: str = field(default_factory=utc_now)
+    #: every waiver given, with its state (scanner.signoff.waiver_match.waiver_states)
+    waivers: list[dict] = field(default_factory=list)
+    #: against a baseline report (scan --baseline): scanner.signoff.compare.compare_reports
+    comparison: dict | None = None
 
     @property
     def worst_status(self) -> str:
-        statuses = [v.status for v in self.victims] + [g.status for g in self.geometric]
+        statuses = [v.status for v in self.victims] + [g.status for g in self.geometric if not g.waived]
+        statuses += [s.status for s in self.impedance.stretches] if self.impedance is not None else []
         for s in ("fail", "warn"):
             if s in statuses:
                 return s
@@ -213,7 +242,8 @@ class ScanResult:
 
     @property
     def verdict(self) -> str:
-        """fail (some victim or limit over budget), incomplete (nothing over, but not all checked), pass."""
+        """fail (some victim or limit over budget, or a stretch off its impedance target), incomplete (nothing
+        over, but not all checked), pass."""
         if self.worst_status == "fail":
             return "fail"
         return "incomplete" if self.unchecked else "pass"
@@ -241,4 +271,6 @@ class ScanResult:
             "hotspots": [h.to_dict() for h in self.hotspots],
             "victims": [v.to_dict() for v in self.victims],
             "geometric": [g.to_dict() for g in self.geometric],
-        }
+            "impedance": None if self.impedance is None else self.impedance.to_dict(),
+            "waivers": list(self.waivers),
+        } | ({} if self.comparison is None else {"comparison": self.comparison})

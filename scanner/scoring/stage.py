@@ -5,16 +5,21 @@ from dataclasses import dataclass
 
 from scanner.board.layerstack import BoardEnvironments
 from scanner.board.model import Board
+from scanner.board.references import describe_reference
 from scanner.board.roles import NetRoles
+from scanner.coupling.layer_impedance import SignalLayerRow
 from scanner.coupling.stage import RUN_GAP_MM, CoupledSet
 from scanner.rules import Rules
 from scanner.scoring.class_limits import GeometricFinding, check_geometric_limits
+from scanner.scoring.coverage import coverage_and_gaps
 from scanner.scoring.directions import DirectedRuns, directed_runs
 from scanner.scoring.findings import hotspot_records, listed_runs, victim_totals, with_exact_checks
 from scanner.scoring.fix_plans import plan_fixes
+from scanner.scoring.impedance import ImpedanceCheck
 from scanner.scoring.noise import Noise, score_noise
 from scanner.scoring.results import Hotspot, ScanResult, VictimTotal, rounded
 from scanner.scoring.totals import victim_sums
+from scanner.signoff.waiver_marks import Waived, apply_waivers, mark_geometric, mark_hotspots
 
 
 @dataclass(frozen=True)
@@ -26,33 +31,40 @@ class Scored:
     hotspots: list[Hotspot]
     victims: list[VictimTotal]
     geometric: list[GeometricFinding]
+    waived: Waived
 
 
 def score_runs(board: Board, rules: Rules, roles: NetRoles, env: BoardEnvironments, coupled: CoupledSet) -> Scored:
-    """Directions, noise against budgets, victim sums, fix plans, records, class-pair limits."""
+    """Directions, noise against budgets, class-pair limits, waivers, victim sums (waived contributions left
+    out), fix plans, records."""
     runs = coupled.runs
     directed = directed_runs(rules, roles, runs, coupled.kept)
     noise = score_noise(rules, roles, directed, runs, coupled.coefficients)
-    sums = victim_sums(rules, roles, directed, noise)
+    geometric = check_geometric_limits(rules, roles, runs, board)
+    waived = apply_waivers(rules.waivers, board, roles, directed, noise, geometric, runs)
+    sums = victim_sums(rules, roles, directed, noise, waived.directions.covered)
     c = coupled.coefficients
     plans = plan_fixes(rules, roles, directed, noise, sums, runs, coupled.lookup, board,
                        (c.kb, c.kf_s_per_m, c.velocity_m_per_s), coupled.broadside_runs)
     listed = listed_runs(rules, directed, noise, plans, len(runs))
     hotspots = hotspot_records(board, roles, env.signal, runs, directed, noise, listed, plans, coupled.broadside_runs)
     hotspots = with_exact_checks(hotspots, runs, env.signal, coupled.broadside_runs)
-    victims = victim_totals(board, roles, runs, directed, noise, sums, hotspots, plans)
-    geometric = check_geometric_limits(rules, roles, runs, board)
-    return Scored(directed, noise, hotspots, victims, geometric)
+    mark_hotspots(hotspots, rules.waivers, waived.directions)
+    victims = victim_totals(board, rules, roles, runs, directed, noise, sums, hotspots, plans, waived.directions)
+    geometric = mark_geometric(geometric, rules.waivers, waived.geometric, runs)
+    return Scored(directed, noise, hotspots, victims, geometric, waived)
 
 
-def build_result(board: Board, rules: Rules, env: BoardEnvironments, coupled: CoupledSet, scored: Scored,
-                 warnings: list[str]) -> ScanResult:
+def build_result(board: Board, rules: Rules, roles: NetRoles, env: BoardEnvironments, coupled: CoupledSet,
+                 scored: Scored, warnings: list[str], layer_table: list[SignalLayerRow],
+                 impedance: ImpedanceCheck) -> ScanResult:
     """The scan result (report.json and everything the reports draw) from the stages' outputs."""
     stackup = env.stackup
+    coverage, unchecked = coverage_and_gaps(board, roles, env, coupled)
     return ScanResult(
         board=_board_summary(board),
-        stackup={"source": stackup.source, "layers": [_stack_item(s) for s in stackup.layers],
-                 "signal_layers": {board.layers[i].name: _env_summary(e) for i, e in env.signal.items()}},
+        stackup={"source": stackup.source, "path": stackup.path, "layers": [_stack_item(s) for s in stackup.layers],
+                 "signal_layers": {row.name: _layer_summary(board, env, row) for row in layer_table if row.scanned}},
         rules=rules.to_dict(),
         settings={"search_distance_mm": round(coupled.search_distance_mm, 4),
                   "search_distance_source": coupled.search_distance_source,
@@ -62,48 +74,21 @@ def build_result(board: Board, rules: Rules, env: BoardEnvironments, coupled: Co
                   "budget_basis": rules.scan.budget_basis,
                   "differential_aggressor": rules.scan.differential_aggressor,
                   "pair_by_geometry": rules.scan.pair_by_geometry,
+                  "search_distance_by_layer_mm": {board.layers[i].name: round(mm, 4)
+                                                  for i, mm in coupled.search_by_layer_mm.items()},
                   "broadside_layer_pairs": [f"{board.layers[a].name}/{board.layers[b].name}" for a, b in env.broadside],
                   "cross_section_solves": coupled.solves},
         hotspots=scored.hotspots, victims=scored.victims, geometric=scored.geometric, warnings=warnings,
         pairs=coupled.roles.pairs(board.nets),
         runs=coupled.runs, piece_coefficients=coupled.coefficients,
         summary=_summary(scored.noise, scored.hotspots, scored.victims, coupled.runs, coupled.kept)
-        | {"list_floor": rules.scan.list_floor},
-        coverage=_coverage(board, env),
-        unchecked=_unchecked(board, env),
+        | {"list_floor": rules.scan.list_floor, "findings_waived": int(scored.waived.directions.covered.sum()),
+           "waivers_unused": sum(w["state"] == "unused" for w in scored.waived.states)},
+        waivers=scored.waived.states,
+        coverage=coverage,
+        unchecked=unchecked,
+        impedance=impedance,
     )
-
-
-def _coverage(board: Board, env: BoardEnvironments) -> dict:
-    """Signal trace length that took part in the search, and each copper layer's part in the scan."""
-    signal = [layer for layer in board.layers if layer.index not in env.plane_layers]
-    total = sum(layer.trace_length_mm for layer in signal)
-    scanned = sum(layer.trace_length_mm for layer in signal if layer.index in env.signal)
-    layers = []
-    for layer in board.layers:
-        if layer.index in env.plane_layers:
-            layers.append({"name": layer.name, "scanned": False, "role": "plane", "reference": None,
-                           "reason": "reference plane"})
-        elif layer.index in env.signal:
-            e = env.signal[layer.index]
-            layers.append({"name": layer.name, "scanned": True, "role": "signal",
-                           "reference": f"{e.structure}, {rounded(e.height_mm, 3)} mm to its reference",
-                           "reason": None})
-        else:
-            layers.append({"name": layer.name, "scanned": False, "role": "signal", "reference": None,
-                           "reason": "no reference plane on either side"})
-    return {"scanned_trace_fraction": rounded(scanned / total, 4) if total > 0 else 1.0,
-            "scanned_trace_mm": rounded(scanned, 1), "signal_trace_mm": rounded(total, 1),
-            "scanned_layers": len(env.signal), "layers": layers}
-
-
-def _unchecked(board: Board, env: BoardEnvironments) -> list[str]:
-    """Why the verdict cannot be a pass: import gaps and signal copper the search did not reach."""
-    reasons = list(board.incomplete)
-    for layer in board.layers:
-        if layer.index not in env.plane_layers and layer.index not in env.signal and len(layer.segments):
-            reasons.append(f"layer {layer.name} not scanned: no reference plane on either side")
-    return reasons
 
 
 def _board_summary(board: Board) -> dict:
@@ -125,9 +110,10 @@ def _stack_item(s) -> dict:
     return {"kind": s.kind, "name": s.name, "thickness_mm": s.thickness_mm, "epsilon_r": s.epsilon_r}
 
 
-def _env_summary(e) -> dict:
-    return {"structure": e.structure, "height_to_plane_mm": rounded(e.height_mm, 4),
-            "trace_thickness_mm": e.trace_thickness_mm}
+def _layer_summary(board: Board, env: BoardEnvironments, row: SignalLayerRow) -> dict:
+    d = row.to_dict()
+    return d | {"height_to_plane_mm": d["height_mm"],
+                "reference": describe_reference(board, env.signal[row.index], env.plane_layers).reference}
 
 
 def _summary(noise: Noise, hotspots, victims, runs, keep) -> dict:

@@ -40,4 +40,4 @@ def test_good_board_in_a_real_process(tmp_path):
     done = run(["scan", corpus.write_board(tmp_path / "board")])
     assert done.returncode == 1  # the corpus board's two traces exceed the default budgets
     assert done.stderr == b""
-    assert b"Overall: fail" in done.stdout
+    assert b"Overall: FAIL" in done.stdout

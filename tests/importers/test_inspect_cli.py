@@ -126,3 +126,15 @@ def test_demo_nets_with_class_role_and_pair(tmp_path, capsys):
     assert {"p": "LVDS_P", "n": "LVDS_N", "source": "name"} in data["pairs"]
     code, text, _ = _main(["inspect", str(root / "fixtures/demo-board/x2"), "--rules", str(rules)], capsys)
     assert "differential pairs (2" in text and "USB_N (name)" in text and "CTRL_*" in text
+
+
+def test_each_layer_shows_its_reference(tmp_path, capsys):
+    # two signal layers, no plane: each is referenced to the other side of the board (L02 carries a pour)
+    folder = write_board(tmp_path, x2=False)
+    code, out, _ = _main(["inspect", str(folder), "--json"], capsys)
+    layers = json.loads(out)["layers"]
+    assert code == 0
+    assert layers[0]["reference"].startswith("microstrip over L02 pour, ")
+    assert "coupling is stronger than over a plane" in layers[0]["reference_evidence"]
+    code, out, _ = _main(["inspect", str(folder)], capsys)
+    assert "  L02: microstrip over the far side (L01), " in out

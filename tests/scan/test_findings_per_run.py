@@ -23,8 +23,8 @@ RULES = load_rules(ROOT / "fixtures/demo-rules.toml")
 @pytest.fixture(scope="module")
 def staged():
     board = scanner.load_board(ROOT / "fixtures/demo-board/x2")
-    env = board_environments(board, RULES.stackup, RULES.planes)
-    roles = assign_roles(board.nets, RULES, _plane_nets(board, env.plane_layers))
+    env = board_environments(board, RULES.stackup, RULES.planes, RULES.scan.skip_layers)
+    roles = assign_roles(board.nets, RULES, _plane_nets(board, env))
     coupled = find_runs(board, env, roles, RULES.scan)
     return board, coupled, score_runs(board, RULES, coupled.roles, env, coupled)
 
