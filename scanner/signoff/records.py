@@ -72,13 +72,16 @@ def _budget_used_pct(record: dict) -> float:
     return float(record["budget_used_pct"]) if "budget_used_pct" in record else 100 * float(record["budget_used"])
 
 
-def finding_entries(report: dict) -> list[Entry]:
-    """The report's listed noise findings and geometric findings."""
+def finding_entries(report: dict, every_direction: bool = True) -> list[Entry]:
+    """The report's listed noise findings and geometric findings.
+
+    A noise record is one coupled run holding both directions (schema 2): one entry per direction, worse
+    first and sharing the run's rank, or with ``every_direction`` false only the worse one (a run compared
+    as a whole). Older reports hold one direction per record."""
     out = []
     for h in report.get("hotspots", []):
-        # one entry per direction of the run (worse first, sharing the run's rank); older reports hold one
-        # direction per record
-        for d in h.get("directions") or [h]:
+        directions = h.get("directions") or [h]
+        for d in directions if every_direction else directions[:1]:
             waiver = d.get("waiver") or {}
             out.append(Entry("noise", tuple(sorted((d["victim"], d["aggressor"]))), d["victim"], d["aggressor"],
                              h["layer"], tuple(h.get("layers") or [h["layer"]]), h["x_mm"], h["y_mm"],
