@@ -217,6 +217,7 @@ class ScanResult:
     pairs: list[dict] = field(default_factory=list)  # differential pairs: p, n, source
     runs: object = None  # scanner.coupling.runs.CoupledRuns, for overlays and waveforms
     piece_coefficients: object = None  # PieceCoefficients aligned with runs.pieces
+    lookup: object = None  # scanner.coupling.coefficients.CouplingLookup: layer environments and tables, for what-if plots
     summary: dict = field(default_factory=dict)
     #: what was checked: scanned_trace_fraction, layers[] (name, scanned, reference, reason), ...
     coverage: dict = field(default_factory=dict)

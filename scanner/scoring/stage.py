@@ -80,7 +80,7 @@ def build_result(board: Board, rules: Rules, roles: NetRoles, env: BoardEnvironm
                   "cross_section_solves": coupled.solves},
         hotspots=scored.hotspots, victims=scored.victims, geometric=scored.geometric, warnings=warnings,
         pairs=coupled.roles.pairs(board.nets),
-        runs=coupled.runs, piece_coefficients=coupled.coefficients,
+        runs=coupled.runs, piece_coefficients=coupled.coefficients, lookup=coupled.lookup,
         summary=_summary(scored.noise, scored.hotspots, scored.victims, coupled.runs, coupled.kept)
         | {"list_floor": rules.scan.list_floor, "findings_waived": int(scored.waived.directions.covered.sum()),
            "waivers_unused": sum(w["state"] == "unused" for w in scored.waived.states)},
