@@ -85,9 +85,9 @@ def test_figure_says_which_end_holds_the_receiver():
     result, board, h = uniform_run()
     high_z = with_worse(h, termination="high-z-receiver")
     fig = wave_figure(finding_waveforms(result, board, high_z), high_z)
-    labels = " ".join(t.get_text() for legend in fig.legends for t in legend.get_texts())
-    assert "receiver here, victim driven from the far end" in labels
-    assert "receiver here, victim driven from the same end" in labels
+    titles = " ".join(ax.get_title(loc="left") for ax in fig.axes)
+    assert "Receiver at the near end (victim driven from the far end)" in titles
+    assert "Receiver at the far end (victim driven from the same end as the aggressor)" in titles
 
 
 def test_figure_shows_both_budgets_and_the_edge():
