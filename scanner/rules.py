@@ -14,12 +14,13 @@ from scanner.board.model import Stackup, StackupLayer
 from scanner.errors import InputError, printable
 from scanner.input_limits import check_range
 from scanner.patterns import compile_patterns, pattern_problem
+from scanner.physics.crosstalk import TERMINATIONS, receiver_gain
 from scanner.signoff.waivers import Waiver, parse_waivers
 from scanner.toml_input import read_toml
 
-TERMINATIONS = ("matched", "high-z-receiver")
 DIFF_AGGRESSOR_MODELS = ("two-lines", "odd-mode")
 BUDGET_BASES = ("worst-case", "rss")
+PAIR_BY_GEOMETRY = ("unnamed-nets", "all-nets", "off")
 
 #: default power and ground patterns (common practice in net naming)
 DEFAULT_POWER_PATTERNS = ("GND*", "*_GND", "AGND*", "DGND*", "PGND*", "VSS*", "VCC*", "VDD*", "VBUS", "+*")
@@ -55,12 +56,6 @@ class NetClass:
 
     def fext_budget_v(self) -> float:
         return _budget_v(self.fext_budget_mv, self.fext_budget_pct, self.swing_v)
-
-
-def receiver_gain(termination: str) -> float:
-    """What a victim's receiver makes of an arriving noise wave: an open (high-impedance) input
-    doubles it (reflection coefficient +1); a matched end takes it as it is."""
-    return 2.0 if termination == "high-z-receiver" else 1.0
 
 
 def _budget_v(mv, pct, swing_v) -> float:
@@ -122,6 +117,7 @@ class ScanSettings:
     budget_basis: str = "worst-case"
     differential_aggressor: str = "two-lines"
     auto_diff_pairs: bool = True
+    pair_by_geometry: str = "unnamed-nets"
     #: stretches outside an impedance target shorter than this are counted, not listed (pad neck-downs)
     impedance_min_length_mm: float = 1.0
     skip_layers: tuple[str, ...] = ()  # copper layer names left out of the search (the verdict is then incomplete)
@@ -182,6 +178,7 @@ _CLASS_KEYS = {
 _SCAN_KEYS = {
     "search_distance_mm": float, "min_coupled_length_mm": float, "angle_tolerance_deg": float,
     "warn_fraction": float, "list_floor": float, "budget_basis": str, "differential_aggressor": str, "auto_diff_pairs": bool,
+    "pair_by_geometry": str,
     "impedance_min_length_mm": float,
     "skip_layers": list,
 }
@@ -223,6 +220,7 @@ def parse_rules(doc: dict, source: str) -> Rules:
     _check_choice(scan_kw.get("differential_aggressor"), DIFF_AGGRESSOR_MODELS, "[scan] differential_aggressor", bad)
     if "warn_fraction" in scan_kw and not scan_kw["warn_fraction"] > 0:
         raise bad("[scan] warn_fraction must be more than 0")
+    _check_choice(scan_kw.get("pair_by_geometry"), PAIR_BY_GEOMETRY, "[scan] pair_by_geometry", bad)
     if "skip_layers" in scan_kw:
         names = scan_kw["skip_layers"]
         if not all(isinstance(n, str) and n for n in names):

@@ -13,6 +13,8 @@ from scanner.coupling.coefficients import section_arguments
 from scanner.physics import (WEAK_COUPLING_LIMIT, Soldermask, coupling_coefficients, piecewise_peaks,
                              saturation_length_m, solve_cross_section, traces_on_layer, weak_coupling_holds)
 from scanner.input_limits import check_finite, check_range
+from scanner.physics.crosstalk import TERMINATIONS
+from scanner.rules import DEFAULT_CLASS
 from scanner.units import M_PER_MM, S_PER_NS
 
 PLOT_FORMATS = (".png", ".svg", ".pdf")
@@ -116,7 +118,15 @@ def _copper_index(copper, text: str, option: str) -> int:
                            f"({', '.join(s.name for s in copper)}, or 1-{len(copper)})")
 
 
-def section_data(section, aggressor: int, victim: int, rise_time_ns, length_mm, swing_v, receiver) -> dict:
+#: where each figure is read, per victim termination (the scan's model, docs/physics.md "Terminations")
+RECEIVER_ENDS = {
+    "matched": ("at the victim's matched near end", "at the victim's matched far end"),
+    "high-z-receiver": ("at a high-impedance receiver on the aggressor's driver end (victim driven from the far end)",
+                        "at a high-impedance receiver on the far end (victim driven from the same end)"),
+}
+
+
+def section_data(section, aggressor: int, victim: int, rise_time_ns, length_mm, swing_v, termination) -> dict:
     """Everything the command reports, as plain data (SI unless the key says otherwise)."""
     m = solve_cross_section(section)
     n = m.count
@@ -143,8 +153,8 @@ def section_data(section, aggressor: int, victim: int, rise_time_ns, length_mm, 
                     saturation_length_mm=float(saturation_length_m(m.velocity(aggressor), rise_s)) / M_PER_MM)
         if n >= 2 and length_mm is not None:
             noise = piecewise_peaks([data["kb"]], [data["kf_s_per_m"]], [length_mm * M_PER_MM],
-                                    [m.velocity(aggressor)], rise_s, swing_v, far_end_receiver=receiver)
-            data.update(length_mm=length_mm, swing_v=swing_v, far_end_receiver=receiver,
+                                    [m.velocity(aggressor)], rise_s, swing_v, termination=termination)
+            data.update(length_mm=length_mm, swing_v=swing_v, termination=termination,
                         next_v=noise.next_v, fext_v=noise.fext_v)
     return data
 
@@ -167,8 +177,10 @@ def render_section(data: dict) -> str:
     if data["saturation_length_mm"] is not None:
         lines.append(f"saturation length at {data['rise_time_ns']} ns: {data['saturation_length_mm']:.1f} mm")
     if data["next_v"] is not None:
-        lines.append(f"over {data['length_mm']} mm, {data['swing_v']} V swing, {data['far_end_receiver']} receiver: "
-                     f"NEXT {data['next_v'] * 1e3:.1f} mV, FEXT {data['fext_v'] * 1e3:.1f} mV")
+        near, far = RECEIVER_ENDS[data["termination"]]
+        lines += [f"over {data['length_mm']} mm, {data['swing_v']} V swing, victim termination {data['termination']}:",
+                  f"  NEXT {data['next_v'] * 1e3:.1f} mV {near}",
+                  f"  FEXT {data['fext_v'] * 1e3:.1f} mV {far}"]
     lines.append("Estimates from a lossless quasi-static model: confirm critical nets by measurement or full "
                  "simulation.")
     return "\n".join(lines)
@@ -197,8 +209,10 @@ def render_section(data: dict) -> str:
 @click.option("--rise-time", "rise_time_ns", type=Physical("rise time"), help="Aggressor 10-90 % rise time in ns.")
 @click.option("--length", "length_mm", type=Physical("coupled length"), help="Coupled length in mm (needs --rise-time).")
 @click.option("--swing", "swing_v", type=Physical("swing"), default=1.0, show_default=True, help="Aggressor swing in V.")
-@click.option("--receiver", type=click.Choice(["matched", "high_z"]), default="matched", show_default=True,
-              help="Victim far-end termination.")
+@click.option("--termination", type=click.Choice(TERMINATIONS), default=DEFAULT_CLASS.termination, show_default=True,
+              help="Victim terminations, as a net class's 'termination' in the rules file: both ends matched, or a "
+                   "matched driver at one end and a high-impedance receiver at the other (the worse of the two "
+                   "ends is taken for each figure, as the scan does).")
 @stackup_option
 @click.option("--layer", help="With --stackup: the copper layer to solve (its name in the stackup, or its number "
                               "from 1 at the top).")
@@ -209,7 +223,7 @@ def render_section(data: dict) -> str:
               help="Also draw the cross-section to scale into this file (.png, .svg or .pdf).")
 @click.pass_context
 def command(ctx, widths, spacings, copper, height_below, er_below, height_above, er_above, planes, mask, mask_er,
-            aggressor, victim, rise_time_ns, length_mm, swing_v, receiver, stackup_path, layer, plane_layers, as_json,
+            aggressor, victim, rise_time_ns, length_mm, swing_v, termination, stackup_path, layer, plane_layers, as_json,
             plot_path):
     """Solve one cross-section: L and C matrices, impedances, Kb and Kf, and NEXT/FEXT for a coupled length.
 
@@ -230,9 +244,8 @@ def command(ctx, widths, spacings, copper, height_below, er_below, height_above,
         raise click.UsageError("--length needs --rise-time")
     if plot_path is not None and Path(plot_path).suffix.lower() not in PLOT_FORMATS:
         raise click.UsageError(f"--plot: give a file name ending in {', '.join(PLOT_FORMATS)}")
-    data = section_data(section, aggressor, victim, rise_time_ns, length_mm, swing_v, receiver)
     with np.errstate(all="ignore"):
-        data = section_data(section, aggressor, victim, rise_time_ns, length_mm, swing_v, receiver)
+        data = section_data(section, aggressor, victim, rise_time_ns, length_mm, swing_v, termination)
     check_finite(np.concatenate([np.ravel(v) for v in data.values()
                                  if isinstance(v, (int, float, list)) and not isinstance(v, bool)]),
                  "cross-section results")
