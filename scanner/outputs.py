@@ -13,8 +13,8 @@ from __future__ import annotations
 import ctypes
 import errno
 import os
-import secrets
 import shutil
+import tempfile
 from pathlib import Path
 
 from scanner.errors import InputError
@@ -43,6 +43,26 @@ def write_file(path: Path, data: str | bytes) -> Path:
     except OSError as exc:
         if exc.filename is None:  # a failed write() or fsync() names no file
             raise OSError(exc.errno, exc.strerror, str(path)) from exc
+        raise
+    return path
+
+
+def replace_file(path: str | Path, data: str | bytes) -> Path:
+    """Write one file whole or not at all: into a temporary file beside it, then renamed over it."""
+    path = Path(path)
+    try:
+        fd, temp = tempfile.mkstemp(prefix=f".{path.name[:NAME_KEPT]}.", suffix=".part", dir=path.parent)
+    except OSError as exc:  # it would name the temporary file, which the user never asked for
+        raise OSError(exc.errno, exc.strerror, str(path)) from exc
+    os.close(fd)
+    try:
+        write_file(Path(temp), data)
+        os.replace(temp, path)
+    except OSError as exc:
+        Path(temp).unlink(missing_ok=True)
+        raise OSError(exc.errno, exc.strerror, str(path)) from exc
+    except BaseException:
+        Path(temp).unlink(missing_ok=True)
         raise
     return path
 
@@ -127,14 +147,21 @@ class OutputFolder:
                              path=self.shown) from None
         except OSError as exc:
             raise OSError(exc.errno, exc.strerror, str(self.shown)) from exc
-        try:
-            self._stage = WorkFolder(self.target.parent, staging_prefix(self.target))
-        except OSError as exc:  # it would name the staging folder, which the user never asked for
-            raise OSError(exc.errno, exc.strerror, str(self.shown)) from exc
-        self.path = self._stage.path
+        self._stage: WorkFolder | None = None
         self._committed = False
 
     def __enter__(self) -> "OutputFolder":
+        # a stop signal held while the staging folder is made acts once it is ours to remove
+        try:
+            with signals_held():
+                self._stage = WorkFolder(self.target.parent, staging_prefix(self.target))
+                self.path = self._stage.path
+        except OSError as exc:  # it would name the staging folder, which the user never asked for
+            raise OSError(exc.errno, exc.strerror, str(self.shown)) from exc
+        except BaseException:
+            if self._stage is not None:
+                self._stage.remove()
+            raise
         return self
 
     def __exit__(self, kind, exc, tb) -> bool:
@@ -166,18 +193,3 @@ def check_output_folder(target: str | Path) -> None:
     """Refuse, before any work, an output folder that could not be written or replaced."""
     with OutputFolder(target):
         pass
-
-
-def replace_file(path: str | Path, data: str | bytes) -> Path:
-    """One file written so that readers see the previous file or the whole new one: a temporary file beside
-    it (``.<name>.<random>.part``, with the usual permissions), flushed, then renamed over it."""
-    path = Path(path)
-    temporary = path.with_name(f".{path.name[:NAME_KEPT]}.{secrets.token_hex(4)}.part")
-    os.close(os.open(temporary, os.O_WRONLY | os.O_CREAT | os.O_EXCL, 0o666))  # mode as the umask allows
-    try:
-        write_file(temporary, data)
-        os.replace(temporary, path)
-    except BaseException:
-        temporary.unlink(missing_ok=True)
-        raise
-    return path

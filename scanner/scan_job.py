@@ -2,19 +2,13 @@
 from __future__ import annotations
 
 from pathlib import Path
-from typing import NamedTuple
 
 from scanner import load_board, scan
 from scanner.errors import InputError
+from scanner.memory import stage
 from scanner.outputs import check_output_folder
 from scanner.report.files import report_json
 from scanner.report.folder import write_report_folder
-
-
-class Scanned(NamedTuple):
-    result: object  # scanner.scoring.results.ScanResult
-    board: object  # scanner.board.model.Board
-    report_json: str
 
 
 def check_output(board_path: Path, out_dir: Path) -> None:
@@ -25,16 +19,20 @@ def check_output(board_path: Path, out_dir: Path) -> None:
     check_output_folder(out_dir)
 
 
-def scan_board(board_path: Path, rules, out_dir: Path | None = None, board_file: Path | None = None,
-               images: bool = True, progress=None) -> Scanned:
-    """Read the board, scan it with ``rules`` and, with ``out_dir``, write its report folder (check it
-    with :func:`check_output` first). Bad input raises :class:`InputError`."""
+def scan_board(board_path: Path, rules, board_file: Path | None = None, progress=None):
+    """Read the board and scan it with ``rules``: ``(board, result)``. Bad input raises :class:`InputError`."""
     progress = progress or (lambda msg: None)
     progress(f"reading {board_path}")
     board = load_board(board_path, board_file=board_file)
-    result = scan(board, rules, progress=progress)
-    report = report_json(result)  # every value checked before anything is written or printed
+    return board, scan(board, rules, progress=progress)
+
+
+def write_outputs(result, board, out_dir: Path | None, images: bool = True, progress=None) -> str:
+    """report.json's text, every value checked before anything is written; with ``out_dir`` (checked with
+    :func:`check_output` first) the whole report folder."""
+    report = report_json(result)
     if out_dir is not None:
-        progress(f"writing reports to {out_dir}")
-        write_report_folder(result, board, out_dir, images=images)
-    return Scanned(result, board, report)
+        (progress or (lambda msg: None))(f"writing reports to {out_dir}")
+        with stage(f"writing reports to {out_dir}", f"{board.segment_count:,} trace segments"):
+            write_report_folder(result, board, out_dir, images=images)
+    return report

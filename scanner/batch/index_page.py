@@ -8,7 +8,7 @@ from __future__ import annotations
 from pathlib import Path
 
 from scanner.report import palette
-from scanner.report.page import Markup, link, table, tag
+from scanner.report.html import Markup, joined, link, table, tag
 
 #: verdict colours: fail and pass as on the report page; the others our own, apart in lightness as well as hue
 VERDICT_COLOUR = {"fail": palette.STATUS_COLOUR["fail"], "error": "#4b3a63", "refused": "#8a7d6b",
@@ -81,7 +81,7 @@ def _rows(boards: list[dict]) -> Markup:
                      seconds, r["reason"]])
     return table(["#", "verdict", "board", "traces scanned", "victims over", "worst victim", "its budget used",
                   "seconds", "why"], body, class_="boards", numeric={0, 3, 4, 6, 7},
-                 row_classes=[f"row-{r['verdict']}" for r in boards])
+                 row_attrs=[{"class_": f"row-{r['verdict']}"} for r in boards])
 
 
 def render_index(summary: dict, out_dir: Path, data_files: tuple[str, ...]) -> str:
@@ -96,7 +96,7 @@ def render_index(summary: dict, out_dir: Path, data_files: tuple[str, ...]) -> s
     body = (tag("h1", f"Crosstalk batch: {len(boards)} boards") + _tally(summary["counts"])
             + tag("p", [tag("strong", "Caution. "), summary["caution"]], class_="caution")
             + tag("p", facts, class_="muted")
-            + (tag("p", ["Data: ", Markup(", ".join(data))], class_="muted") if data else Markup(""))
+            + (tag("p", ["Data: "] + joined(data, ", "), class_="muted") if data else Markup(""))
             + tag("p", "Traces scanned: share of the signal trace length the scan reached. Victims over: victims "
                        "over budget. Its budget used: the worst victim's noise as a share of its budget; the tick "
                        f"marks the whole budget, the bar ends at {BAR_SPAN:g} times it.", class_="muted")

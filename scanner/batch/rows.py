@@ -40,12 +40,12 @@ COLUMNS = tuple(f.name for f in fields(BoardRow))
 
 def scanned_row(result, shown: str, report: str, seconds: float) -> BoardRow:
     """The row of a board that was scanned: fail, incomplete or pass."""
-    worst = max(result.victims, key=lambda v: v.budget_used, default=None)
+    worst = max(result.victims, key=lambda v: v.budget_used_pct, default=None)
     victims_fail = sum(1 for v in result.victims if v.status == "fail")
     return BoardRow(board=shown, verdict=result.verdict,
                     coverage=result.coverage.get("scanned_trace_fraction"), victims_fail=victims_fail,
                     worst_victim=None if worst is None else worst.net,
-                    worst_budget_used=None if worst is None else rounded(worst.budget_used, 4),
+                    worst_budget_used=None if worst is None else rounded(worst.budget_used_pct / 100, 4),
                     seconds=rounded(seconds, 2), reason=_reason(result, victims_fail), report=report)
 
 

@@ -18,7 +18,7 @@ from scanner.batch.fingerprint import inputs_digest
 from scanner.batch.rows import BoardRow, scanned_row, unscanned_row
 from scanner.errors import InputError, printable
 from scanner.outputs import check_replaceable, replace_file
-from scanner.scan_job import check_output, scan_board
+from scanner.scan_job import check_output, scan_board, write_outputs
 
 #: written into a board's report folder after everything else: the inputs the report was made from
 ENTRY_FILE = "batch-entry.json"
@@ -83,7 +83,8 @@ def _scan_or_reuse(job: BoardJob, started: float) -> BoardRow:
     if (job.report_dir / ERROR_FILE).exists():
         _clear(job.report_dir)  # the folder of an earlier internal error holds no report to replace
     check_output(job.board, job.report_dir)
-    result = scan_board(job.board, job.rules, out_dir=job.report_dir, images=job.images).result
+    board, result = scan_board(job.board, job.rules)
+    write_outputs(result, board, job.report_dir, images=job.images)
     main = "report.html" if job.images else "report.json"
     row = scanned_row(result, job.shown, f"{job.folder}/{main}", time.perf_counter() - started)
     replace_file(entry, json.dumps({"schema": ENTRY_SCHEMA, "inputs": digest, "row": row.to_dict()}, indent=1) + "\n")

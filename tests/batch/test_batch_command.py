@@ -2,7 +2,6 @@
 and a broken board, the summary files, the index page, re-runs that skip unchanged boards, and exit status."""
 import csv
 import json
-import re
 import shutil
 from html.parser import HTMLParser
 from pathlib import Path
@@ -14,6 +13,7 @@ from scanner.batch import engine
 from scanner.batch.task import ENTRY_FILE
 from scanner.cli import main
 from scanner.report.files import report_json
+from scanner.report.names import is_report_file
 from scanner.rules import load_rules
 
 ROOT = Path(__file__).resolve().parents[2]
@@ -46,8 +46,8 @@ def boards(tmp_path_factory):
         shutil.copytree(DEMO / variant, root / variant)
     broken = root / "cut-short"
     broken.mkdir()
-    gerber = (DEMO / "x2/ml6-logger-F_Cu.gbr").read_text()
-    (broken / "ml6-logger-F_Cu.gbr").write_text(gerber[: len(gerber) // 2])
+    gerber = (DEMO / "x2/ml6-logger-c1.gbr").read_text()
+    (broken / "ml6-logger-c1.gbr").write_text(gerber[: len(gerber) // 2])
     listing = root / "boards.txt"
     listing.write_text("# demo variants, then one broken board\nx2\nx1\n\nodbpp\ncut-short\n")
     return root, listing
@@ -84,14 +84,15 @@ def test_every_board_has_a_row_and_the_broken_one_its_reason(first, boards):
     assert summary["counts"] == {"fail": 3, "error": 0, "refused": 1, "incomplete": 0, "pass": 0}
     broken = rows["cut-short"]
     assert broken["verdict"] == "refused" and broken["report"] is None
-    assert "ml6-logger-F_Cu.gbr" in broken["reason"] and "\n" not in broken["reason"]
+    assert "ml6-logger-c1.gbr" in broken["reason"] and "\n" not in broken["reason"]
     assert not [p for p in out.iterdir() if p.name.startswith("cut-short")]  # no report folder for it
     for name in ("x2", "x1", "odbpp"):
         row = rows[name]
         assert row["verdict"] == "fail" and row["reused"] is False and row["coverage"] == 1.0
         report = json.loads((out / row["report"]).read_text())
-        worst = max(report["victims"], key=lambda v: v["budget_used"])
-        assert row["worst_victim"] == worst["net"] and row["worst_budget_used"] == pytest.approx(worst["budget_used"])
+        worst = max(report["victims"], key=lambda v: v["budget_used_pct"])
+        assert row["worst_victim"] == worst["net"]
+        assert row["worst_budget_used"] == pytest.approx(worst["budget_used_pct"] / 100, abs=1e-4)
         assert row["victims_fail"] == sum(v["status"] == "fail" for v in report["victims"])
         assert (out / row["report"]).parent.joinpath("hotspots.csv").is_file()
     assert [r["verdict"] for r in summary["boards"]] == ["fail"] * 3 + ["refused"]  # worst first
@@ -187,7 +188,7 @@ def test_changed_rules_redo_every_board(scheduler, boards, tmp_path):
 
 
 def test_with_images_each_folder_holds_what_scan_writes(scheduler, boards, tmp_path):
-    """The files docs/report.md lists for `nearfar scan --out`, the page among them, and the index links the page."""
+    """The files of a `nearfar scan --out` folder, the page among them, and the index links the page."""
     root, _ = boards
     out = tmp_path / "out"
     assert _batch(scheduler, [str(root / "x2")], out, images=True) == 1
@@ -197,8 +198,7 @@ def test_with_images_each_folder_holds_what_scan_writes(scheduler, boards, tmp_p
     names = {p.name for p in folder.iterdir()} - {ENTRY_FILE}
     assert {"report.json", "hotspots.csv", "report.html", "overlay-all.png", "overlay-all.svg", "hotspot-1.png",
             "wave-1.png"} <= names
-    documented = re.compile(r"report\.(json|html)|hotspots\.csv|overlay-[\w.-]+\.(png|svg)|(hotspot|wave)-\d+\.png")
-    assert all(documented.fullmatch(n) for n in names), names
+    assert all(is_report_file(n) for n in names), names  # the report folder's own names (scanner.report.names)
     page = _Page()
     page.feed((out / "index.html").read_text(encoding="utf-8"))
     assert row["report"] in page.links

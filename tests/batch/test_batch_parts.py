@@ -84,8 +84,8 @@ def test_worst_first_and_exit_status():
 
 
 def test_rows_of_an_incomplete_and_a_failing_scan():
-    victims = [SimpleNamespace(net="A", status="pass", budget_used=0.4),
-               SimpleNamespace(net="B", status="warn", budget_used=0.9)]
+    victims = [SimpleNamespace(net="A", status="pass", budget_used_pct=40.0),
+               SimpleNamespace(net="B", status="warn", budget_used_pct=90.0)]
     result = SimpleNamespace(verdict="incomplete", victims=victims, geometric=[], coverage={"scanned_trace_fraction": 0.6},
                              unchecked=["layer L3 not scanned: no reference plane on either side"])
     row = scanned_row(result, "brd", "brd-1/report.json", 2.345)
