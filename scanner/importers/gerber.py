@@ -7,23 +7,30 @@ from multiprocessing import get_context
 from pathlib import Path
 
 import numpy as np
+import shapely
 
 from scanner.board.model import NO_NET, Board, CopperLayer, CopperShapes, Holes, NetlistPoints, TraceSegments
-from scanner.errors import InputError
+from scanner.errors import InputError, reading
+from scanner.importers.board_extent import (BoardExtent, board_extent, evidence_points, leave_out_copper,
+                                            segment_lines)
 from scanner.importers.boardfile import BOARD_FILE_NAME, BoardFile, read_board_file
-from scanner.importers.excellon import read_drills
+from scanner.importers.excellon import read_drills, side_file_settings
 from scanner.importers.gerber_copper import CopperArtwork, read_copper
 from scanner.importers.ipc356 import NetlistRecords, read_ipc356
 from scanner.importers.jobfile import JobFile, read_job_file
-from scanner.importers.layer_order import CopperFile, copper_files, guess_from_name
-from scanner.importers.outline import find_profile, read_outline
-from scanner.importers.planes import classify_planes, copper_box
+from scanner.importers.layer_names import guess_from_name
+from scanner.importers.layer_order import CopperFile, copper_files
+from scanner.importers.outline import find_outline, profile_candidates
+from scanner.importers.planes import classify_planes
+from scanner.importers.pours import negative_to_pour, strokes_to_pour
 from scanner.importers.sources import SourceFile, folder_name, named_kind
 from scanner.input_limits import SEGMENTS, check_count
 from scanner.board.netmap import assign_nets
 
 #: netlist points further than this outside the board's outline (or copper extent) are off the board (mm)
 OFF_BOARD_MARGIN_MM = 1.0
+#: files larger than this are not read as drill side files (bytes)
+SIDE_FILE_MAX_BYTES = 65536
 
 
 class GerberImporter:
@@ -41,8 +48,9 @@ class GerberImporter:
         where = folder_name(files)
         by_rel = {f.rel: f for f in files}
         board_cfg = _board_file(files, board_file)
-        job = _job_file(files)
-        unread = _unread_files(files, job, board_cfg)
+        job, warnings = _job_file(files)
+        incomplete: list[str] = []
+        warnings += _unread_files(files, job, board_cfg, incomplete)
         gerbers = [f for f in files if f.kind == "gerber"]
         copper, order_source = copper_files(gerbers, board_cfg.layers if board_cfg else None,
                                             board_cfg.path if board_cfg else None,
@@ -50,40 +58,59 @@ class GerberImporter:
         if not copper:
             raise InputError("no copper layers found (no X2 .FileFunction, job file or recognisable file names; "
                              f"list them in {BOARD_FILE_NAME})", path=where)
+        if job is not None and job.copper_layers is not None and job.copper_layers != len(copper):
+            warnings.append(f"{job.path}: states {job.copper_layers} copper layers; {len(copper)} copper files found")
         artworks = read_copper_files([(c.source.path, c.source.name) for c in copper])
         check_count(sum(len(a.x0) for a in artworks), SEGMENTS, "trace segments on the board", where)
-        warnings = unread + (job.warnings if job else [])
         net_names = sorted({n for a in artworks for n in np.concatenate([a.segment_net, a.shape_net]) if n})
         net_index = {n: i for i, n in enumerate(net_names)}
         layers = [_layer(k, c, a, net_index) for k, (c, a) in enumerate(zip(copper, artworks))]
-        profile = find_profile([g for g in gerbers if g not in {c.source for c in copper}],
-                               job.file_functions if job else None)
-        outline, outline_log = read_outline(profile) if profile is not None else (None, None)
-        board_planes = _board_planes(board_cfg, copper, layers)
-        classify_planes(layers, [(c.kind_hint, c.hint_source) for c in copper], board_planes, outline)
+        notes = [""] * len(layers)
+        for k, layer in enumerate(layers):
+            if not artworks[k].negative:
+                _, strokes = strokes_to_pour(layer)
+                notes[k] = f"{strokes} strokes read as a filled pour" if strokes else ""
 
-        holes, drill_logs = _holes(files, by_rel, board_cfg, job)
         netlist = _netlist(files, by_rel, board_cfg)
-        if netlist is not None and (off := _off_board(netlist, layers, outline)):
+        holes, drill_logs = _holes(files, by_rel, board_cfg, job, layers, netlist, warnings, incomplete)
+        evidence = evidence_points((holes.x, holes.y), (netlist.x, netlist.y) if netlist is not None else ((), ()))
+        copper_sources = {c.source for c in copper}
+        outline, outline_logs = find_outline(
+            profile_candidates([g for g in gerbers if g not in copper_sources], job.file_functions if job else None),
+            evidence)
+        extent = board_extent(layers, outline.shape if outline else None, evidence,
+                              outline.source.name if outline else "")
+        for k, layer in enumerate(layers):
+            if artworks[k].negative and extent is not None:
+                negative_to_pour(layer, extent.shape)
+                notes[k] = "negative image: copper is the board's area minus what the film draws"
+                warnings.append(f"{layer.path}: {notes[k]}")
+        left_out, left_warning = leave_out_copper(layers, extent)
+        if left_warning:
+            warnings.append(left_warning)
+        board_planes = _board_planes(board_cfg, copper, layers)
+        classify_planes(layers, [(c.kind_hint, c.hint_source) for c in copper], board_planes, extent, notes)
+
+        if netlist is not None and (off := _off_board(netlist, extent)):
             warnings.append(off)
-        for a in artworks:
-            if (s := a.log.summary()):
-                warnings.append(s)
-        warnings.extend(s for log in drill_logs + ([outline_log] if outline_log else []) if (s := log.summary()))
+        for log in [a.log for a in artworks] + drill_logs + outline_logs:
+            if (summary := log.summary()):
+                warnings.append(summary)
 
         x2 = any(a.has_net_attributes for a in artworks) or order_source == "gerber-x2"
         fmt = "gerber-x2" if x2 else "gerber-x1"
         if netlist is not None:
             fmt += "+ipc-d-356"
         board = Board(
-            name=design_name([c.source.path.name for c in copper]), source=where, format=fmt, layers=layers, nets=net_names, holes=holes,
-            stackup=job.stackup if job else None, outline=outline,
+            name=design_name([c.source.path.name for c in copper]), source=where, format=fmt, layers=layers,
+            nets=net_names, holes=holes, stackup=job.stackup if job else None,
+            outline=outline.shape if outline else None,
             netlist=_netlist_points(netlist, len(layers)) if netlist is not None else None,
-            warnings=warnings)
+            warnings=warnings, left_out=left_out, incomplete=incomplete)
         if order_source == "file-names":
-            board.warnings.append("copper order taken from file names: "
-                                  + ", ".join(c.source.rel for c in copper)
-                                  + f" (override with {BOARD_FILE_NAME})")
+            board.warnings.append("copper order taken from names: " + ", ".join(
+                f"{c.source.rel} ({c.recognised_by})" if c.recognised_by else c.source.rel for c in copper)
+                + f" (override with {BOARD_FILE_NAME})")
         assign_nets(board)
         return board
 
@@ -129,17 +156,23 @@ def _board_file(files: list[SourceFile], explicit: Path | None) -> BoardFile | N
     return read_board_file(found[0].path, found[0].name) if found else None
 
 
-def _job_file(files: list[SourceFile]) -> JobFile | None:
-    """The job file, if any; every copper file it lists must be in the folder."""
+def _job_file(files: list[SourceFile]) -> tuple[JobFile | None, list[str]]:
+    """The job file, if any, and warnings: one that cannot be used is left out with a warning (it is
+    optional); but every copper file it lists must be in the folder."""
     jobs = [f for f in files if f.kind == "job"]
     if not jobs:
-        return None
-    job = read_job_file(jobs[0].path, jobs[0].name)
+        return None, []
+    notes = [f"{f.name}: second job file not used" for f in jobs[1:]]
+    try:
+        with reading(jobs[0].name):
+            job = read_job_file(jobs[0].path, jobs[0].name)
+    except InputError as exc:
+        return None, notes + [f"{exc.one_line()}; job file not used (stackup from the rules or the default)"]
     present = {f.path.name for f in files}
     missing = sorted(n for n, fn in job.file_functions.items() if fn[0] == "Copper" and n not in present)
     if missing:
         raise InputError(f"lists copper file(s) missing from the board: {', '.join(missing)}", path=job.path)
-    return job
+    return job, notes + job.warnings
 
 
 #: by the format a file's name promises: how messages call the format, and what the board needs the file for
@@ -147,34 +180,41 @@ _PROMISED = {"gerber": ("Gerber", "a copper layer"), "excellon": ("Excellon dril
              "ipc356": ("IPC-D-356 netlist", "the net names")}
 
 
-def _unread_files(files: list[SourceFile], job: JobFile | None, cfg: BoardFile | None) -> list[str]:
+def _unread_files(files: list[SourceFile], job: JobFile | None, cfg: BoardFile | None,
+                  incomplete: list[str]) -> list[str]:
     """Files named like Gerber, drill or netlist files whose content is not: an error when the board needs
-    them (leaving one out would change the nets), otherwise a warning each."""
+    them (leaving one out would change the nets), otherwise a warning each. A drill file is never needed
+    that much: the board is read without it, as incomplete."""
     warnings = []
+    has_netlist = any(f.kind == "ipc356" for f in files) or (cfg is not None and bool(cfg.netlist))
     for f in files:
         if f.kind != "other" or (promised := named_kind(f.path.name)) is None:
             continue
         fmt, use = _PROMISED[promised]
         why = "empty" if f.path.stat().st_size == 0 else f"not a readable {fmt} file (content not recognised)"
         if promised == "excellon":
-            needed = cfg is None or cfg.drills is None
+            needed = False
+            if cfg is None or cfg.drills is None:
+                effect = _without_drills(has_netlist)
+                warnings.append(f"{f.name}: {why}; drill file not used: {effect}")
+                incomplete.append(f"drill file {f.name} unreadable: {effect}")
+                continue
         elif promised == "ipc356":
             needed = cfg is None or not cfg.netlist
         else:
             needed = ((job is not None and job.file_functions.get(f.path.name, ("",))[0] == "Copper")
-                      or ((cfg is None or not cfg.layers) and guess_from_name(f.path.name) is not None))
+                      or ((cfg is None or not cfg.layers) and guess_from_name(f.path.name).is_copper))
         if needed:
             raise InputError(f"{why}; by its name it holds {use}", path=f.name)
         warnings.append(f"{f.name}: not read: {why}")
     return warnings
 
 
-def _off_board(netlist: NetlistRecords, layers: list[CopperLayer], outline) -> str | None:
+def _off_board(netlist: NetlistRecords, extent: BoardExtent | None) -> str | None:
     """A warning for netlist points off the board; none of them on it is an error (wrong units or board)."""
-    box = copper_box(layers, outline)
-    if box is None:
+    if extent is None:
         return None
-    x0, y0, x1, y1 = box
+    x0, y0, x1, y1 = (float(v) for v in extent.shape.bounds)
     m = OFF_BOARD_MARGIN_MM
     off = (netlist.x < x0 - m) | (netlist.x > x1 + m) | (netlist.y < y0 - m) | (netlist.y > y1 + m)
     if not off.any():
@@ -218,23 +258,74 @@ def _find(by_rel: dict, name: str, cfg: BoardFile) -> SourceFile:
     return src
 
 
-def _holes(files, by_rel, cfg: BoardFile | None, job: JobFile | None):
+def _holes(files, by_rel, cfg: BoardFile | None, job: JobFile | None, layers: list[CopperLayer],
+           netlist: NetlistRecords | None, warnings: list[str], incomplete: list[str]):
+    """Holes of every drill file; one that cannot be read is left out with a warning and makes the import
+    incomplete (its holes would have joined the layers)."""
     if cfg is not None and cfg.drills is not None:
         chosen = [(_find(by_rel, d.file, cfg), d.plated, "board-file" if d.plated is not None else None)
                   for d in cfg.drills]
     else:
         chosen = [(f, None, None) for f in files if f.kind == "excellon"]
+    side = _side_settings(files)
+    landing = _landing_test(layers)
     parts, logs = [], []
     for src, plated, source in chosen:
         if plated is None and job is not None and (fn := job.file_functions.get(src.path.name)):
             if fn[0] in ("Plated", "NonPlated"):
                 plated, source = fn[0] == "Plated", "job-file"
-        drill = read_drills(src.path, src.name, plated, source)
+        try:
+            drill = read_drills(src.path, src.name, plated, source, side.get(src.rel.rpartition("/")[0]), landing)
+        except InputError as exc:
+            effect = _without_drills(netlist is not None)
+            warnings.append(f"{exc.one_line()}; drill file not used: {effect}")
+            incomplete.append(f"drill file {src.name} unreadable: {effect}")
+            continue
         parts.append(drill.holes)
         logs.append(drill.log)
+        if drill.assumed:
+            warnings.append(f"{src.name}: {drill.assumed}")
     if not parts:
         return Holes.empty(), logs
     return Holes(*(np.concatenate([getattr(h, k) for h in parts]) for k in ("x", "y", "diameter", "plated", "net"))), logs
+
+
+def _without_drills(has_netlist: bool) -> str:
+    """What a board loses with a drill file left out."""
+    return "layer-to-layer connections from the netlist only" if has_netlist else "nets split per layer"
+
+
+def _side_settings(files: list[SourceFile]) -> dict[str, object]:
+    """Drill number format and units from side files (``nc_param.txt`` style), by folder."""
+    found = {}
+    for f in files:
+        if f.kind != "other" or f.path.stat().st_size > SIDE_FILE_MAX_BYTES:
+            continue
+        with reading(f.name):
+            settings = side_file_settings(f.path.read_text(encoding="latin-1"))
+        if settings is not None:
+            found.setdefault(f.rel.rpartition("/")[0], settings)
+    return found
+
+
+def _landing_test(layers: list[CopperLayer]):
+    """``share(x, y)``: the share of points on copper of the outer layers (pads first; traces when no pads)."""
+    geoms = []
+    for layer in (layers[0], layers[-1]) if layers else ():
+        if len(layer.shapes):
+            geoms.append(layer.shapes.geometry)
+        elif len(layer.segments):
+            s = layer.segments
+            geoms.append(shapely.buffer(segment_lines(s), s.width / 2, quad_segs=2))
+    if not geoms:
+        return None
+    tree = shapely.STRtree(np.concatenate(geoms))
+
+    def share(x: np.ndarray, y: np.ndarray) -> float:
+        hit, _ = tree.query(shapely.points(x, y), predicate="intersects")
+        return len(np.unique(hit)) / len(x) if len(x) else 0.0
+
+    return share
 
 
 def _netlist(files, by_rel, cfg: BoardFile | None) -> NetlistRecords | None:

@@ -12,7 +12,7 @@ from gerbonara.apertures import CircleAperture
 from gerbonara.rs274x import GerberFile, GerberParser
 from gerbonara.utils import Inch, MM
 
-from scanner.errors import InputError, printable
+from scanner.errors import InputError, printable, reading
 from scanner.importers.apertures import (QUAD_SEGS, aperture_outline, aperture_problem, arc_poly_polygon,
                                          swept_width_mm)
 from scanner.importers.arcs import flatten_arcs
@@ -45,6 +45,8 @@ class CopperArtwork:
     shape_net: np.ndarray
     role: np.ndarray
     log: FileWarnings
+    #: negative image (``%IPNEG*%`` or X2 ``.FilePolarity,Negative``): what is drawn is where copper is not
+    negative: bool = False
 
     @property
     def has_net_attributes(self) -> bool:
@@ -117,6 +119,7 @@ class _CopperParser(GerberParser):
     def __init__(self, target, log: FileWarnings):
         super().__init__(target)
         self._log = log
+        self.negative = False
         target.objects = _ObjectList(self)
 
     def warn(self, msg, kls=SyntaxWarning):
@@ -143,10 +146,8 @@ class _CopperParser(GerberParser):
             raise ValueError(problem)
 
     def _parse_image_polarity(self, match):
-        if match["polarity"] == "NEG":
-            raise ValueError("negative image polarity (%IPNEG*%, deprecated) is not supported: the copper would "
-                             "come out inverted")
-        super()._parse_image_polarity(match)
+        # objects keep the polarity they are drawn with; the importer inverts the whole image
+        self.negative = match["polarity"] == "NEG"
 
     def _parse_eof(self, match):
         if self.current_region is not None:
@@ -160,7 +161,9 @@ class _CopperParser(GerberParser):
 
 
 def parse_gerber(path: Path, display_name: str | None = None) -> tuple[GerberFile, FileWarnings]:
-    """Parse with gerbonara; warnings counted in a log, failures raised as InputError with file and line."""
+    """Parse with gerbonara; warnings counted in a log, failures raised as InputError with file and line.
+
+    A negative image is marked on the result as ``gerber.negative_image``."""
     name = display_name or str(path)
     log = FileWarnings(name)
     data = read_input(path, name, "Gerber file").decode("utf-8", errors="replace")
@@ -179,6 +182,8 @@ def parse_gerber(path: Path, display_name: str | None = None) -> tuple[GerberFil
                          line=data.count("\n") + 1)
     if gerber.unit is None:
         raise InputError("Gerber file declares no unit (no %MO statement)", path=name)
+    polarity = dict(gerber.file_attrs).get(".FilePolarity") or ("",)
+    gerber.negative_image = parser.negative or str(polarity[0]).lower() == "negative"
     return gerber, log
 
 
@@ -211,10 +216,15 @@ def role_for(function: str | None, default: str) -> str:
     return default
 
 
+#: the X2 ``.N`` value for copper that belongs to no net
+NOT_CONNECTED = "N/C"
+
+
 def net_of(obj) -> str | None:
+    """The X2 net name of a graphic object; None for none, empty, and ``N/C`` (not connected)."""
     attrs = obj.attrs if isinstance(obj.attrs, dict) else {}
     value = attrs.get(".N")
-    if not value or not value[0]:
+    if not value or not value[0] or value[0] == NOT_CONNECTED:
         return None
     return printable(value[0])
 
@@ -245,13 +255,16 @@ def _translated(template: shapely.Geometry, x: np.ndarray, y: np.ndarray) -> np.
 
 def read_copper(path: Path, display_name: str | None = None) -> CopperArtwork:
     """Read one copper file into segments and shapes with net names (X2) where present."""
-    gerber, log = parse_gerber(path, display_name)
-    try:
-        return artwork_from_gerber(path, gerber, log)
-    except InputError as exc:
-        if exc.path is not None:
-            raise
-        raise InputError(exc.message, path=log.name, line=exc.line) from exc
+    with reading(display_name or path):
+        gerber, log = parse_gerber(path, display_name)
+        try:
+            art = artwork_from_gerber(path, gerber, log)
+        except InputError as exc:
+            if exc.path is not None:
+                raise
+            raise InputError(exc.message, path=log.name, line=exc.line) from exc
+        art.negative = gerber.negative_image
+        return art
 
 
 def artwork_from_gerber(path: Path, gerber: GerberFile, log: FileWarnings) -> CopperArtwork:
