@@ -29,6 +29,8 @@ from scanner.board.netmap import assign_nets
 
 #: netlist points further than this outside the board's outline (or copper extent) are off the board (mm)
 OFF_BOARD_MARGIN_MM = 1.0
+#: words every size-limit refusal carries (scanner.input_limits)
+LIMIT_HINT = "NEARFAR_MAX_"
 #: files larger than this are not read as drill side files (bytes)
 SIDE_FILE_MAX_BYTES = 65536
 
@@ -73,7 +75,7 @@ class GerberImporter:
 
         netlist = _netlist(files, by_rel, board_cfg)
         holes, drill_logs = _holes(files, by_rel, board_cfg, job, layers, netlist, warnings, incomplete)
-        evidence = evidence_points((holes.x, holes.y), (netlist.x, netlist.y) if netlist is not None else ((), ()))
+        evidence = evidence_points((holes.x, holes.y) if len(holes) or netlist is None else (netlist.x, netlist.y))
         copper_sources = {c.source for c in copper}
         outline, outline_logs = find_outline(
             profile_candidates([g for g in gerbers if g not in copper_sources], job.file_functions if job else None),
@@ -277,6 +279,8 @@ def _holes(files, by_rel, cfg: BoardFile | None, job: JobFile | None, layers: li
         try:
             drill = read_drills(src.path, src.name, plated, source, side.get(src.rel.rpartition("/")[0]), landing)
         except InputError as exc:
+            if LIMIT_HINT in exc.message:
+                raise  # a size limit is a refusal, not a damaged file
             effect = _without_drills(netlist is not None)
             warnings.append(f"{exc.one_line()}; drill file not used: {effect}")
             incomplete.append(f"drill file {src.name} unreadable: {effect}")

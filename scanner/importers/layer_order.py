@@ -156,7 +156,8 @@ def _one_board(keyed: list[tuple[tuple, SourceFile]], evidence: str, where: str)
     sets: dict[str, list[SourceFile]] = {}
     for _, src in keyed:
         sets.setdefault(design_set(src), []).append(src)
-    tidy = len(sets) > 1 and all(len({k for k, s in keyed if s in files}) == len(files) for files in sets.values())
+    tidy = len(sets) > 1 and all(len(files) > 1 and len({k for k, s in keyed if s in files}) == len(files)
+                                 for files in sets.values())
     if tidy:
         listed = "; ".join(f"set {i}: {', '.join(s.rel for s in files)}" for i, files in enumerate(sets.values(), 1))
         raise InputError(f"{len(sets)} boards in one folder? The copper files form {len(sets)} sets ({listed}). "

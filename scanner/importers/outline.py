@@ -1,8 +1,9 @@
 """The board outline: from the profile Gerber (X2 ``Profile``, job file, name), else from a mechanical layer.
 
-A profile file is trusted when its draws close. Mechanical and drawing layers mix the
-outline with dimensions, frames, title blocks and notes, so from them the outline is the
-smallest closed shape that holds the board's evidence (drill hits, netlist points, pads).
+A profile the files declare (X2 or job file) is trusted when its draws close; one found by
+its name must also hold the board's evidence (drill hits, else netlist points). Mechanical
+and drawing layers mix the outline with dimensions, frames, title blocks and notes, so from
+them the outline is the smallest closed shape that holds the evidence.
 Nothing here stops an import: the outline is optional, and every failure is a warning.
 """
 from __future__ import annotations
@@ -42,21 +43,22 @@ class Outline:
 
     shape: shapely.Geometry
     source: SourceFile
-    how: str  # "profile" (the file is the profile) or "mechanical" (chosen among a drawing's shapes)
+    how: str  # "declared" or "named" (the file is the profile) or "mechanical" (chosen among a drawing's shapes)
 
 
 def profile_candidates(gerbers: list[SourceFile], job_functions: dict | None) -> list[tuple[SourceFile, str]]:
-    """Non-copper Gerber files that may hold the outline, best first, each with "profile" or "mechanical"."""
+    """Non-copper Gerber files that may hold the outline, best first, each with "declared", "named" or
+    "mechanical"."""
     job_functions = job_functions or {}
     out = []
     for src in gerbers:
         function = src.file_function or job_functions.get(src.path.name)
         if function and function[0] == "Profile":
-            out.append((0, src, "profile"))
+            out.append((0, src, "declared"))
         elif function:
             continue  # X2 or the job file says what it is, and it is not the profile
         elif _PROFILE_EXT.search(src.path.name) or _PROFILE_WORDS & set(name_words(src.path.name)):
-            out.append((1, src, "profile"))
+            out.append((1, src, "named"))
         elif _MECHANICAL.search(src.path.name):
             out.append((2, src, "mechanical"))
     out.sort(key=lambda t: (t[0], t[1].rel))
@@ -67,8 +69,8 @@ def find_outline(candidates: list[tuple[SourceFile, str]], evidence: np.ndarray
                  ) -> tuple[Outline | None, list[FileWarnings]]:
     """The first candidate giving an outline that holds the evidence points ((N, 2) mm; may be empty).
 
-    A profile file's outline is its largest closed shape minus the shapes inside it (cut-outs); it
-    must hold the evidence too when there is any, else the file is not this board's profile. A
+    A profile file's outline is its largest closed shape minus the shapes inside it (cut-outs); one found
+    by name must hold the evidence too when there is any, else it is not this board's profile. A
     mechanical file's outline is its smallest closed shape holding the evidence (none without evidence).
     """
     logs = []
@@ -91,15 +93,15 @@ def _outline_from(src: SourceFile, how: str, evidence: np.ndarray, log: FileWarn
         gerber, parse_log = parse_gerber(src.path, src.name)
         polygons = _closed_shapes(_profile_lines(gerber))
     except InputError as exc:
-        log.add(f"outline not read: {exc.message}", exc.line)
+        log.add(f"profile not used: {exc.message}", exc.line)
         return None
     except (shapely.errors.ShapelyError, ValueError) as exc:
-        log.add(f"outline not read: its shapes could not be joined ({type(exc).__name__})")
+        log.add(f"profile not used: its draws could not be joined into shapes ({type(exc).__name__})")
         return None
-    if how == "profile":
+    if how != "mechanical":
         log.absorb(parse_log)
     if not len(polygons):
-        if how == "profile":
+        if how != "mechanical":
             log.add("profile draws no closed outline; the board's extent is taken from its drill hits and copper")
         return None
     holds = _holding(polygons, evidence)
@@ -109,7 +111,7 @@ def _outline_from(src: SourceFile, how: str, evidence: np.ndarray, log: FileWarn
         areas = np.where(holds, shapely.area(polygons), np.inf)
         return polygons[int(np.argmin(areas))]
     outer_index = int(np.argmax(shapely.area(polygons)))
-    if len(evidence) and not holds[outer_index]:
+    if how == "named" and len(evidence) and not holds[outer_index]:
         log.add(f"profile's outline holds under {EVIDENCE_SHARE:.0%} of the drill hits and netlist points; "
                 "not used (another board's profile, or other units?)")
         return None

@@ -4,7 +4,8 @@
 IPC-D-356A netlist), a drill file, a profile and a job file with the stackup. Each
 entry of ``CASES`` damages one part of it (or builds an archive, a rules or board file)
 and says which file the one-line error must name, and on which line where that is
-known. Each entry of ``RECOVERABLE`` damages an optional part: the board still loads
+known. Each entry of ``RECOVERABLE`` damages an optional part (the profile, a silkscreen,
+the job file, a drill file, which leaves the import incomplete): the board still loads
 and a warning names what was left out.
 """
 from __future__ import annotations
@@ -250,9 +251,9 @@ def binary_garbage_copper_file(tmp):
     return Case(board_with_bytes(tmp, TOP_FILE, bytes(range(256)) * 16), TOP_FILE, "not a readable")
 
 
-@case
+@recoverable
 def empty_drill_file(tmp):
-    return Case(board_with_bytes(tmp, DRILL_FILE, b""), DRILL_FILE, "empty")
+    return Recoverable(board_with_bytes(tmp, DRILL_FILE, b""), DRILL_FILE, "empty")
 
 
 @case
@@ -261,9 +262,9 @@ def garbage_netlist(tmp):
     return Case(board_with_bytes(tmp, NETLIST_FILE, noise, x2=False), NETLIST_FILE, "not a readable")
 
 
-@case
+@recoverable
 def empty_job_file(tmp):
-    return Case(board_with_bytes(tmp, JOB_FILE, b""), JOB_FILE, "not valid JSON", line=1)
+    return Recoverable(board_with_bytes(tmp, JOB_FILE, b""), f"{JOB_FILE}:1", "not valid JSON")
 
 
 @case
@@ -364,9 +365,10 @@ def old_style_unit_change(tmp):
     return top_case(tmp, "%TO.N,DATA", ["G70*"], "unit changed")
 
 
-@case
+@recoverable
 def negative_image_polarity(tmp):
-    return top_case(tmp, "%LPD*%", ["%IPNEG*%"], "negative image polarity")
+    board, _ = top_with(tmp, "%LPD*%", ["%IPNEG*%"])
+    return Recoverable(board, TOP_FILE, "negative image")
 
 
 @case
@@ -407,7 +409,8 @@ def copper_layer_missing_from_x2_numbers(tmp):
 @case
 def job_lists_a_missing_copper_file(tmp):
     inner = {"Path": "board-In1_Cu.gbr", "FileFunction": "Copper,L2,Inr,Signal"}
-    return job_case(tmp, lambda d: d["FilesAttributes"].insert(1, inner), "missing from the board: board-In1_Cu.gbr")
+    board = board_with_job(tmp, lambda d: d["FilesAttributes"].insert(1, inner))
+    return Case(board, JOB_FILE, "missing from the board: board-In1_Cu.gbr")
 
 
 # ---------------------------------------------------------------------------------------- netlists
@@ -456,29 +459,30 @@ def netlist_points_all_off_board(tmp):
 # ---------------------------------------------------------------------------------------- drill files
 
 
-def drill_case(tmp, lines: list[str], says: str, line: int | None) -> Case:
-    return Case(board_with(tmp, DRILL_FILE, lines), DRILL_FILE, says, line)
+def drill_case(tmp, lines: list[str], says: str, line: int | None) -> Recoverable:
+    """A damaged drill file: the board loads without it (incomplete), with a warning naming the file and line."""
+    return Recoverable(board_with(tmp, DRILL_FILE, lines), DRILL_FILE if line is None else f"{DRILL_FILE}:{line}", says)
 
 
-@case
+@recoverable
 def drill_undefined_tool(tmp):
     lines = drill_lines()
     lines[index_of(lines, "T1") + 3] = "T7"  # the selection after the header
     return drill_case(tmp, lines, "Undefined tool", index_of(lines, "T7") + 1)
 
 
-@case
+@recoverable
 def drill_hole_before_any_tool(tmp):
     lines = [line for line in drill_lines() if not (line.startswith("T") and "C" not in line)]
     return drill_case(tmp, lines, "before any tool", index_of(lines, "X") + 1)
 
 
-@case
+@recoverable
 def drill_truncated(tmp):
     return drill_case(tmp, drill_lines()[:-2], "M30", len(drill_lines()) - 2)
 
 
-@case
+@recoverable
 def drill_absurd_coordinate(tmp):
     lines = drill_lines()
     i = index_of(lines, "X")
@@ -486,7 +490,7 @@ def drill_absurd_coordinate(tmp):
     return drill_case(tmp, lines, "beyond the limit", i + 1)
 
 
-@case
+@recoverable
 def drill_absurd_tool(tmp):
     lines = [line.replace("T1C0.300", "T1C99999999.0") for line in drill_lines()]
     return drill_case(tmp, lines, "tool diameter", index_of(lines, "X") + 1)
@@ -502,54 +506,55 @@ def board_with_job(tmp, edit: Callable[[dict], None]) -> Path:
     return board_with_bytes(tmp, JOB_FILE, json.dumps(data, indent=1).encode())
 
 
-def job_case(tmp, edit: Callable[[dict], None], says: str) -> Case:
-    return Case(board_with_job(tmp, edit), JOB_FILE, says)
+def job_case(tmp, edit: Callable[[dict], None], says: str) -> Recoverable:
+    """A job file with a bad value: the board loads without it (stackup from the rules), with a warning."""
+    return Recoverable(board_with_job(tmp, edit), JOB_FILE, says)
 
 
 def _core(data: dict) -> dict:
     return data["MaterialStackup"][2]
 
 
-@case
+@recoverable
 def job_negative_thickness(tmp):
     return job_case(tmp, lambda d: _core(d).update(Thickness=-0.2), "Thickness -0.2")
 
 
-@case
+@recoverable
 def job_missing_thickness(tmp):
     return job_case(tmp, lambda d: _core(d).pop("Thickness"), "no Thickness")
 
 
-@case
+@recoverable
 def job_zero_thickness(tmp):
     return job_case(tmp, lambda d: _core(d).update(Thickness=0), "Thickness 0")
 
 
-@case
+@recoverable
 def job_permittivity_below_one(tmp):
     return job_case(tmp, lambda d: _core(d).update(DielectricConstant=0.7), "DielectricConstant 0.7")
 
 
-@case
+@recoverable
 def job_permittivity_not_a_number(tmp):
-    return job_case(tmp, lambda d: _core(d).update(DielectricConstant="high"), "DielectricConstant 'high'")
+    return job_case(tmp, lambda d: _core(d).update(DielectricConstant="high"), "expected a relative permittivity")
 
 
-@case
+@recoverable
 def job_missing_permittivity(tmp):
     return job_case(tmp, lambda d: _core(d).pop("DielectricConstant"), "no DielectricConstant")
 
 
-@case
+@recoverable
 def job_stackup_of_wrong_shape(tmp):
     return job_case(tmp, lambda d: d.update(MaterialStackup={"layers": 2}), "not a list")
 
 
-@case
+@recoverable
 def job_not_json(tmp):
     board = write_board(tmp / "board")
     (board / JOB_FILE).write_text('{\n "MaterialStackup": [\n  {"Type": "Copper",, }\n ]\n}\n')
-    return Case(board, JOB_FILE, "not valid JSON", line=3)
+    return Recoverable(board, f"{JOB_FILE}:3", "not valid JSON")
 
 
 # ---------------------------------------------------------------------------------------- rules and board files

@@ -109,8 +109,9 @@ def test_json_serialisation_failure_writes_no_report(board, tmp_path, capsys, mo
         raise ValueError("Out of range float values are not JSON compliant")
     monkeypatch.setattr(scanner.report.files, "report_json", refuse)
     out_dir = tmp_path / "out"
-    with pytest.raises(ValueError):  # a program fault, not bad input: it is not turned into exit status 2
-        run_main(["scan", board, "--out", out_dir, *QUICK], capsys)
+    code, _, err = run_main(["scan", board, "--out", out_dir, *QUICK], capsys)
+    assert code == 4  # a program fault, not bad input (2) and not violations found (1)
+    assert err.count("\n") == 1 and "internal error" in err and "Traceback" not in err
     assert not (out_dir / "report.json").exists() and temporary_files(out_dir) == []
 
 
