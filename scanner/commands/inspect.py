@@ -25,7 +25,12 @@ def inspect_data(board: Board) -> dict:
             "kind_source": layer.kind_source, "file": layer.path, "segments": len(layer.segments),
             "shapes": len(layer.shapes), "trace_length_mm": round(layer.trace_length_mm, 3),
             "fill_ratio": None if layer.fill_ratio is None else round(layer.fill_ratio, 4),
+            "kind_evidence": layer.kind_evidence,
         } for layer in board.layers],
+        "outline_mm2": None if board.outline is None else round(float(board.outline.area), 3),
+        "left_out": {"objects": board.left_out.objects, "trace_length_mm": round(board.left_out.trace_length_mm, 3),
+                     "layers": list(board.left_out.layers)},
+        "incomplete": list(board.incomplete),
         "nets": len(board.nets),
         "holes": {"plated": int(board.holes.plated.sum()), "non_plated": int((~board.holes.plated).sum())},
         "stackup": [] if board.stackup is None else [{
@@ -64,6 +69,16 @@ def render_inspect(data: dict) -> str:
              Path(l["file"] or "").name) for l in data["layers"]]
     out += _table(("layer", "side", "use", "decided by", "traces", "length mm", "shapes", "poured", "file"),
                   rows, {4, 5, 6, 7})
+    out += ["", "why each layer is a plane or a signal layer:"]
+    out += [f"  {l['name']}: {l['kind_evidence']}" for l in data["layers"] if l["kind_evidence"]]
+    outline = data["outline_mm2"]
+    out += ["", f"outline: {'none read; the board extent comes from drill hits and copper' if outline is None else f'{outline:.0f} mm2'}"]
+    if data["left_out"]["objects"]:
+        left = data["left_out"]
+        out.append(f"left out (outside the board): {left['objects']} objects, {left['trace_length_mm']:.0f} mm of "
+                   f"draws on {', '.join(left['layers'])}")
+    if data["incomplete"]:
+        out += ["incomplete import:"] + [f"  {reason}" for reason in data["incomplete"]]
     holes = data["holes"]
     out += ["", f"nets: {data['nets']}    holes: {holes['plated']} plated, {holes['non_plated']} non-plated"]
     if data["stackup"]:
@@ -95,9 +110,10 @@ def render_inspect(data: dict) -> str:
 @click.option("--json", "as_json", is_flag=True, help="Print the summary as JSON instead of tables.")
 @click.option("--board-file", type=click.Path(path_type=Path), default=None,
               help="Board description (TOML): copper files in stack order, planes, netlist, drills.")
-def command(board, as_json, board_file):
+@click.option("--step", default=None, metavar="NAME", help="The step of an ODB++ job to read, when it has several.")
+def command(board, as_json, board_file, step):
     """Show what nearfar reads from BOARD (a folder, .zip, or ODB++ job .tgz): copper layers in stack order, planes,
     nets, stackup, how well the copper matched the netlist, and parser warnings."""
-    data = inspect_data(load_board(board, board_file=board_file))
+    data = inspect_data(load_board(board, board_file=board_file, step=step))
     click.echo(json.dumps(data, indent=2) if as_json else render_inspect(data))
     return 0

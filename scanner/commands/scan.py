@@ -27,7 +27,8 @@ from scanner.rules import load_rules
               help="Hotspots listed on the terminal.")
 @click.option("--json", "as_json", is_flag=True, help="Print report.json to standard output instead of the table.")
 @click.option("--no-images", is_flag=True, help="Skip overlay images, waveform plots and the report page.")
-def command(board, rules_path, board_file, out_dir, top, as_json, no_images):
+@click.option("--step", default=None, metavar="NAME", help="The step of an ODB++ job to read, when it has several.")
+def command(board, rules_path, board_file, out_dir, top, as_json, no_images, step):
     """Find parallel runs between nets on BOARD (a folder or .zip of Gerber, drill and netlist files, or an
     ODB++ job folder or .tgz), predict NEXT and FEXT on every victim, check the net-class budgets and rank
     the hotspots.
@@ -47,7 +48,7 @@ def command(board, rules_path, board_file, out_dir, top, as_json, no_images):
                          "(give a separate folder, or a subfolder)", path=out_dir)
     rules = load_rules(rules_path)
     progress(f"reading {board}")
-    the_board = load_board(board, board_file=board_file)
+    the_board = load_board(board, board_file=board_file, step=step)
     result = scan(the_board, rules, progress=progress)
 
     if out_dir is not None:

@@ -17,9 +17,9 @@ from scanner.importers.sources import list_sources
 __all__ = ["load_board"]
 
 
-def load_board(path, board_file=None) -> Board:
+def load_board(path, board_file=None, step: str | None = None) -> Board:
     """Read a board folder or archive (``.zip``; ``.tgz``, ``.tar.gz``, ``.tar`` for ODB++ jobs);
-    ``board_file`` overrides ``nearfar-board.toml``."""
+    ``board_file`` overrides ``nearfar-board.toml``; ``step`` names the ODB++ step to read."""
     path = Path(path)
     board_file = None if board_file is None else Path(board_file)
     if board_file is not None and not board_file.is_file():
@@ -32,15 +32,20 @@ def load_board(path, board_file=None) -> Board:
         with tempfile.TemporaryDirectory(prefix="nearfar-") as tmp:
             root = Path(tmp)
             extract_job_archive(path, root)
-            return _load_folder(root, board_file, where=printable(str(path)), prefix=f"{path.name}!")
-    return _load_folder(path, board_file, where=printable(str(path)), prefix=f"{path}/")
+            return _load_folder(root, board_file, step, where=printable(str(path)), prefix=f"{path.name}!")
+    return _load_folder(path, board_file, step, where=printable(str(path)), prefix=f"{path}/")
 
 
-def _load_folder(root: Path, board_file: Path | None, where: str, prefix: str) -> Board:
+def _load_folder(root: Path, board_file: Path | None, step: str | None, where: str, prefix: str) -> Board:
     files = list_sources(root, prefix)
     if not files:
         raise InputError("no files found", path=where)
     importer = choose(discover(), files, where)
+    if step is not None:
+        if not hasattr(importer, "step"):
+            raise InputError(f"--step names a step of an ODB++ job; these files are read as {importer.name}",
+                             path=where)
+        importer.step = step
     board = importer.load(root, files, board_file=board_file)
     board.source = where
     if not board.name:

@@ -153,9 +153,13 @@ def read_copper_files(jobs: list[tuple[Path, str]]) -> list[CopperArtwork]:
 
 def _board_file(files: list[SourceFile], explicit: Path | None) -> BoardFile | None:
     if explicit is not None:
-        return read_board_file(explicit)
+        with reading(explicit):
+            return read_board_file(explicit)
     found = [f for f in files if f.kind == "board-file" and f.rel == BOARD_FILE_NAME]
-    return read_board_file(found[0].path, found[0].name) if found else None
+    if not found:
+        return None
+    with reading(found[0].name):
+        return read_board_file(found[0].path, found[0].name)
 
 
 def _job_file(files: list[SourceFile]) -> tuple[JobFile | None, list[str]]:
@@ -335,12 +339,16 @@ def _landing_test(layers: list[CopperLayer]):
 def _netlist(files, by_rel, cfg: BoardFile | None) -> NetlistRecords | None:
     if cfg is not None and cfg.netlist:
         src = _find(by_rel, cfg.netlist, cfg)
+    else:
+        found = [f for f in files if f.kind == "ipc356"]
+        if len(found) > 1:
+            raise InputError(f"several IPC-D-356 netlists ({', '.join(f.rel for f in found)}); name one as "
+                             f"'netlist' in {BOARD_FILE_NAME}", path=folder_name(files))
+        if not found:
+            return None
+        src = found[0]
+    with reading(src.name):
         return read_ipc356(src.path, src.name)
-    found = [f for f in files if f.kind == "ipc356"]
-    if len(found) > 1:
-        raise InputError(f"several IPC-D-356 netlists ({', '.join(f.rel for f in found)}); name one as "
-                         f"'netlist' in {BOARD_FILE_NAME}", path=folder_name(files))
-    return read_ipc356(found[0].path, found[0].name) if found else None
 
 
 def _netlist_points(rec: NetlistRecords, n_layers: int) -> NetlistPoints:
