@@ -24,7 +24,8 @@ CLUMP_CELL_MM = 0.5
 CLUMP_GAP_MM = 2.0
 #: copper within this distance (mm) of the outline or extent still counts as on the board
 EDGE_MARGIN_MM = 0.5
-#: if more than this share of the copper objects would be left out, the extent is doubted and nothing is
+#: if more than this share of the copper objects lie outside the outline, the outline is doubted and nothing is
+#: left out (an extent found from clumps holds the evidence by construction)
 LEFT_OUT_MAX_SHARE = 0.5
 
 
@@ -103,10 +104,10 @@ def board_extent(layers: list[CopperLayer], outline, evidence: np.ndarray, outli
         touched = np.array([int(np.argmax(sizes)) + 1]) if count else np.zeros(0, int)
     keep = np.isin(label, touched) & covered
     rows, cols = np.nonzero(keep)
+    if not len(rows):
+        return BoardExtent(shapely.box(*box), "the extent of all copper (no copper near the drill hits)")
     xs = np.concatenate([grid.x0 + cols * grid.cell_mm, grid.x0 + (cols + 1) * grid.cell_mm, evidence[:, 0]])
     ys = np.concatenate([grid.y0 + rows * grid.cell_mm, grid.y0 + (rows + 1) * grid.cell_mm, evidence[:, 1]])
-    if not len(xs):
-        return BoardExtent(shapely.box(*box), "the extent of all copper")
     return BoardExtent(shapely.box(xs.min(), ys.min(), xs.max(), ys.max()),
                        f"the extent of the {what} and the copper around them (no outline)")
 
@@ -128,7 +129,7 @@ def leave_out_copper(layers: list[CopperLayer], extent: BoardExtent | None) -> t
     dropped = sum(int(a.sum() + b.sum()) for a, b in outside)
     if not dropped:
         return LeftOut(), None
-    if dropped > LEFT_OUT_MAX_SHARE * total:
+    if extent.how.startswith("the outline") and dropped > LEFT_OUT_MAX_SHARE * total:
         return LeftOut(), (f"{dropped} of {total} copper objects lie outside {extent.how}; that many makes the "
                            "extent doubtful, so all copper is kept")
     length, names = 0.0, []

@@ -75,12 +75,17 @@ class GerberImporter:
 
         netlist = _netlist(files, by_rel, board_cfg)
         holes, drill_logs = _holes(files, by_rel, board_cfg, job, layers, netlist, warnings, incomplete)
-        evidence = evidence_points((holes.x, holes.y) if len(holes) or netlist is None else (netlist.x, netlist.y))
+        # where the board is: plated holes (all holes when none is plated), and netlist points
+        drilled = holes.plated if holes.plated.any() else np.ones(len(holes), dtype=bool)
+        points = (netlist.x, netlist.y) if netlist is not None else ((), ())
+        evidence = evidence_points((holes.x[drilled], holes.y[drilled]))
+        evidence = evidence if len(evidence) else evidence_points(points)
         copper_sources = {c.source for c in copper}
         outline, outline_logs = find_outline(
             profile_candidates([g for g in gerbers if g not in copper_sources], job.file_functions if job else None),
             evidence)
-        extent = board_extent(layers, outline.shape if outline else None, evidence,
+        extent = board_extent(layers, outline.shape if outline else None,
+                              evidence_points((holes.x[drilled], holes.y[drilled]), points),
                               outline.source.name if outline else "")
         for k, layer in enumerate(layers):
             if artworks[k].negative and extent is not None:

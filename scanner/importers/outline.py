@@ -31,6 +31,8 @@ _MECHANICAL = re.compile(r"\.(?:gm\d{1,2}|gd\d{0,2}|fab|drd)$|mech|fab|drawing|b
 
 #: outline points are snapped to this grid (mm) so ends that should meet do meet
 SNAP_MM = 1e-3
+#: when the draws do not close, gaps up to twice this (mm) between their ends are bridged
+GAP_MM = 0.1
 #: a candidate outline must hold this share of the board's evidence points ...
 EVIDENCE_SHARE = 0.95
 #: ... each counted inside when within this distance (mm) of it
@@ -69,9 +71,9 @@ def find_outline(candidates: list[tuple[SourceFile, str]], evidence: np.ndarray
                  ) -> tuple[Outline | None, list[FileWarnings]]:
     """The first candidate giving an outline that holds the evidence points ((N, 2) mm; may be empty).
 
-    A profile file's outline is its largest closed shape minus the shapes inside it (cut-outs); one found
-    by name must hold the evidence too when there is any, else it is not this board's profile. A
-    mechanical file's outline is its smallest closed shape holding the evidence (none without evidence).
+    The outline is the smallest closed shape holding the evidence; a profile the files declare gives its
+    largest shape when none holds it (or there is no evidence), one found by name gives none. From a
+    profile file, shapes inside the outline are cut-outs. A mechanical file without evidence gives none.
     """
     logs = []
     for src, how in candidates:
@@ -91,7 +93,10 @@ def find_outline(candidates: list[tuple[SourceFile, str]], evidence: np.ndarray
 def _outline_from(src: SourceFile, how: str, evidence: np.ndarray, log: FileWarnings) -> shapely.Geometry | None:
     try:
         gerber, parse_log = parse_gerber(src.path, src.name)
-        polygons = _closed_shapes(_profile_lines(gerber))
+        lines = _profile_lines(gerber)
+        polygons = _closed_shapes(lines)
+        if not _holding(polygons, evidence).any():
+            polygons = np.concatenate([polygons, _bridged_shapes(lines)])
     except InputError as exc:
         log.add(f"profile not used: {exc.message}", exc.line)
         return None
@@ -105,18 +110,19 @@ def _outline_from(src: SourceFile, how: str, evidence: np.ndarray, log: FileWarn
             log.add("profile draws no closed outline; the board's extent is taken from its drill hits and copper")
         return None
     holds = _holding(polygons, evidence)
-    if how == "mechanical":
-        if not holds.any():
-            return None
-        areas = np.where(holds, shapely.area(polygons), np.inf)
-        return polygons[int(np.argmin(areas))]
-    outer_index = int(np.argmax(shapely.area(polygons)))
-    if how == "named" and len(evidence) and not holds[outer_index]:
-        log.add(f"profile's outline holds under {EVIDENCE_SHARE:.0%} of the drill hits and netlist points; "
-                "not used (another board's profile, or other units?)")
+    if holds.any():
+        chosen = int(np.argmin(np.where(holds, shapely.area(polygons), np.inf)))
+    elif how == "declared":
+        chosen = int(np.argmax(shapely.area(polygons)))
+    else:
+        if how == "named":
+            log.add(f"profile's shapes hold under {EVIDENCE_SHARE:.0%} of the drill hits (or netlist points); "
+                    "not used (another board's profile, or other units?)")
         return None
-    outer = polygons[outer_index]
-    inner = np.delete(polygons, outer_index)
+    outer = polygons[chosen]
+    if how == "mechanical":
+        return outer
+    inner = np.delete(polygons, chosen)
     inner = inner[shapely.contains(outer, inner)] if len(inner) else inner
     return shapely.difference(outer, shapely.union_all(inner)) if len(inner) else outer
 
@@ -146,6 +152,20 @@ def _closed_shapes(lines: list[np.ndarray]) -> np.ndarray:
             strings)))))
     polygons = polygons[~shapely.is_empty(polygons)] if len(polygons) else polygons
     return polygons[shapely.area(polygons) > 0] if len(polygons) else polygons
+
+
+def _bridged_shapes(lines: list[np.ndarray]) -> np.ndarray:
+    """The areas the lines enclose once grown by GAP_MM (bridging small gaps, as sloppy outlines have), each
+    grown back to the lines' centre."""
+    if not lines:
+        return np.zeros(0, dtype=object)
+    index = np.repeat(np.arange(len(lines)), [len(line) for line in lines])
+    grown = shapely.union_all(shapely.buffer(shapely.linestrings(np.vstack(lines), indices=index), GAP_MM,
+                                             quad_segs=2))
+    holes = [shapely.Polygon(ring) for part in shapely.get_parts(grown) for ring in part.interiors]
+    if not holes:
+        return np.zeros(0, dtype=object)
+    return shapely.buffer(np.asarray(holes, dtype=object), GAP_MM, quad_segs=2, join_style="mitre")
 
 
 def _profile_lines(gerber) -> list[np.ndarray]:

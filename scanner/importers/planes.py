@@ -57,7 +57,7 @@ def classify_planes(layers: list[CopperLayer], hints: list[tuple[str | None, str
     traces = [layer.trace_length_mm for layer in layers]
     busiest = max(traces, default=0.0)
     best = max(fills, default=0.0)
-    where = "inside the outline" if extent.how.startswith("the outline") else "inside the board extent"
+    where = "inside the outline" if extent is not None and extent.how.startswith("the outline") else "inside the board extent"
     for k, (layer, (hint, source)) in enumerate(zip(layers, hints)):
         layer.fill_ratio = fills[k]
         others = fills[:k] + fills[k + 1:]
