@@ -29,6 +29,10 @@ EDGE_MARGIN_MM = 0.5
 LEFT_OUT_MAX_SHARE = 0.5
 
 
+#: how an extent read from an outline file says so
+OUTLINE_FROM = "the outline from"
+
+
 @dataclass(frozen=True)
 class BoardExtent:
     """The board's area (mm) and, in words, what it was taken from."""
@@ -39,6 +43,10 @@ class BoardExtent:
     @property
     def area_mm2(self) -> float:
         return float(self.shape.area)
+
+    @property
+    def is_outline(self) -> bool:
+        return self.how.startswith(OUTLINE_FROM)
 
 
 def evidence_points(*point_sets: tuple[np.ndarray, np.ndarray]) -> np.ndarray:
@@ -77,10 +85,8 @@ def _copper_box(layers: list[CopperLayer]) -> tuple[float, float, float, float] 
     return float(b[:, 0].min()), float(b[:, 1].min()), float(b[:, 2].max()), float(b[:, 3].max())
 
 
-def board_extent(layers: list[CopperLayer], outline, evidence: np.ndarray, outline_name: str = "") -> BoardExtent | None:
-    """The outline when there is one; else the box of the evidence and the copper clumps that touch it."""
-    if outline is not None and not outline.is_empty:
-        return BoardExtent(outline, f"the outline from {outline_name}" if outline_name else "the outline")
+def board_extent(layers: list[CopperLayer], evidence: np.ndarray) -> BoardExtent | None:
+    """The box of the evidence and the copper clumps that touch it (for boards without an outline)."""
     box = _copper_box(layers)
     if box is None:
         return None
@@ -129,7 +135,7 @@ def leave_out_copper(layers: list[CopperLayer], extent: BoardExtent | None) -> t
     dropped = sum(int(a.sum() + b.sum()) for a, b in outside)
     if not dropped:
         return LeftOut(), None
-    if extent.how.startswith("the outline") and dropped > LEFT_OUT_MAX_SHARE * total:
+    if extent.is_outline and dropped > LEFT_OUT_MAX_SHARE * total:
         return LeftOut(), (f"{dropped} of {total} copper objects lie outside {extent.how}; that many makes the "
                            "extent doubtful, so all copper is kept")
     length, names = 0.0, []

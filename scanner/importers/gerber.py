@@ -84,9 +84,7 @@ class GerberImporter:
         outline, outline_logs = find_outline(
             profile_candidates([g for g in gerbers if g not in copper_sources], job.file_functions if job else None),
             evidence)
-        extent = board_extent(layers, outline.shape if outline else None,
-                              evidence_points((holes.x[drilled], holes.y[drilled]), points),
-                              outline.source.name if outline else "")
+        extent = outline or board_extent(layers, evidence_points((holes.x[drilled], holes.y[drilled]), points))
         for k, layer in enumerate(layers):
             if artworks[k].negative and extent is not None:
                 negative_to_pour(layer, extent.shape)

@@ -9,8 +9,6 @@ Nothing here stops an import: the outline is optional, and every failure is a wa
 from __future__ import annotations
 
 import re
-from dataclasses import dataclass
-
 import numpy as np
 import shapely
 from gerbonara import graphic_objects as go
@@ -18,6 +16,7 @@ from gerbonara.utils import MM
 
 from scanner.errors import InputError, reading
 from scanner.importers.arcs import flatten_arcs
+from scanner.importers.board_extent import OUTLINE_FROM, BoardExtent
 from scanner.importers.diagnostics import FileWarnings
 from scanner.importers.gerber_copper import parse_gerber
 from scanner.importers.layer_names import name_words
@@ -37,15 +36,6 @@ GAP_MM = 0.1
 EVIDENCE_SHARE = 0.95
 #: ... each counted inside when within this distance (mm) of it
 EVIDENCE_MARGIN_MM = 0.5
-
-
-@dataclass(frozen=True)
-class Outline:
-    """The board outline and the file it came from."""
-
-    shape: shapely.Geometry
-    source: SourceFile
-    how: str  # "declared" or "named" (the file is the profile) or "mechanical" (chosen among a drawing's shapes)
 
 
 def profile_candidates(gerbers: list[SourceFile], job_functions: dict | None) -> list[tuple[SourceFile, str]]:
@@ -68,8 +58,9 @@ def profile_candidates(gerbers: list[SourceFile], job_functions: dict | None) ->
 
 
 def find_outline(candidates: list[tuple[SourceFile, str]], evidence: np.ndarray
-                 ) -> tuple[Outline | None, list[FileWarnings]]:
-    """The first candidate giving an outline that holds the evidence points ((N, 2) mm; may be empty).
+                 ) -> tuple[BoardExtent | None, list[FileWarnings]]:
+    """The first candidate giving an outline that holds the evidence points ((N, 2) mm; may be empty), as the
+    board's extent, and the candidates' warnings.
 
     The outline is the smallest closed shape holding the evidence; a profile the files declare gives its
     largest shape when none holds it (or there is no evidence), one found by name gives none. From a
@@ -84,7 +75,7 @@ def find_outline(candidates: list[tuple[SourceFile, str]], evidence: np.ndarray
         with reading(src.name):
             shape = _outline_from(src, how, evidence, log)
         if shape is not None:
-            return Outline(shape, src, how), logs
+            return BoardExtent(shape, f"{OUTLINE_FROM} {src.name}"), logs
         if how == "mechanical":
             logs.pop()  # a drawing without the outline is no news
     return None, logs

@@ -13,7 +13,7 @@ import numpy as np
 
 from scanner.board.coverage import Grid, draw
 from scanner.board.model import CopperLayer
-from scanner.importers.board_extent import BoardExtent, board_extent
+from scanner.importers.board_extent import OUTLINE_FROM, BoardExtent, board_extent
 
 #: a plane's fill is at least this share of the board's area ...
 PLANE_MIN_FILL = 0.15
@@ -48,16 +48,18 @@ def classify_planes(layers: list[CopperLayer], hints: list[tuple[str | None, str
 
     ``board_planes`` (layer indices from the board file) is taken as the complete list when given;
     otherwise X2, job-file or matrix hints decide, and the pour fill decides the rest. ``extent`` is
-    a :class:`BoardExtent`, an outline geometry or None (then the copper's own extent). ``notes`` adds
-    per-layer words to the evidence (strokes read as pour, a negative image).
+    a :class:`BoardExtent`, an outline geometry (the ODB++ profile) or None (then the copper's own
+    extent). ``notes`` adds per-layer words to the evidence (strokes read as pour, a negative image).
     """
-    if extent is None or not isinstance(extent, BoardExtent):
-        extent = board_extent(layers, extent, np.zeros((0, 2)), "the profile")
+    if extent is not None and not isinstance(extent, BoardExtent):
+        extent = BoardExtent(extent, f"{OUTLINE_FROM} the step profile")
+    if extent is None:
+        extent = board_extent(layers, np.zeros((0, 2)))
     fills = pour_fill(layers, extent)
     traces = [layer.trace_length_mm for layer in layers]
     busiest = max(traces, default=0.0)
     best = max(fills, default=0.0)
-    where = "inside the outline" if extent is not None and extent.how.startswith("the outline") else "inside the board extent"
+    where = "inside the outline" if extent is not None and extent.is_outline else "inside the board extent"
     for k, (layer, (hint, source)) in enumerate(zip(layers, hints)):
         layer.fill_ratio = fills[k]
         others = fills[:k] + fills[k + 1:]
