@@ -18,8 +18,8 @@ from matplotlib.path import Path
 
 from scanner.board.model import TraceSegments
 
-#: the grid of a board has at most about this many cells ...
-MAX_CELLS = 1_500_000
+#: the grid of a board has at most about this many cells (unless asked for more) ...
+MAX_CELLS = 250_000
 #: ... and cells no smaller than this (mm)
 MIN_CELL_MM = 0.05
 _DPI = 100
@@ -50,11 +50,13 @@ class Grid:
     ny: int
 
     @classmethod
-    def over(cls, box: tuple[float, float, float, float], cell_mm: float | None = None) -> "Grid":
-        """A grid covering ``box`` (x0, y0, x1, y1 mm), with cells as fine as MAX_CELLS allows."""
+    def over(cls, box: tuple[float, float, float, float], cell_mm: float | None = None,
+             max_cells: int = MAX_CELLS) -> "Grid":
+        """A grid covering ``box`` (x0, y0, x1, y1 mm), with cells of ``cell_mm`` or as fine as ``max_cells``
+        allows."""
         x0, y0, x1, y1 = box
         w, h = max(x1 - x0, 1e-3), max(y1 - y0, 1e-3)
-        cell = cell_mm or max(MIN_CELL_MM, float(np.sqrt(w * h / MAX_CELLS)))
+        cell = cell_mm or max(MIN_CELL_MM, float(np.sqrt(w * h / max_cells)))
         return cls(x0, y0, cell, int(np.ceil(w / cell)) + 1, int(np.ceil(h / cell)) + 1)
 
     def cell_of(self, x: np.ndarray, y: np.ndarray) -> tuple[np.ndarray, np.ndarray]:

@@ -94,10 +94,9 @@ def board_extent(layers: list[CopperLayer], evidence: np.ndarray) -> BoardExtent
     if not len(evidence):
         evidence, what = pad_centres(layers), "pads"
     grid = Grid.over(box, max(CLUMP_CELL_MM, Grid.over(box).cell_mm))
-    covered = np.zeros((grid.ny, grid.nx), dtype=bool)
-    for layer in layers:
-        regions = layer.shapes.geometry if len(layer.shapes) else None
-        covered |= draw(grid, layer.segments, regions) > 0.05
+    shapes = [layer.shapes.geometry for layer in layers if len(layer.shapes)]
+    covered = draw(grid, TraceSegments.concat([layer.segments for layer in layers]),
+                   np.concatenate(shapes) if shapes else None) > 0.05
     grown = ndimage.binary_dilation(covered, iterations=max(1, int(round(CLUMP_GAP_MM / 2 / grid.cell_mm))))
     label, count = ndimage.label(grown)
     if len(evidence):

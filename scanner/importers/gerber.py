@@ -320,20 +320,21 @@ def _side_settings(files: list[SourceFile]) -> dict[str, object]:
 
 
 def _landing_test(layers: list[CopperLayer]):
-    """``share(x, y)``: the share of points on copper of the outer layers (pads first; traces when no pads)."""
-    geoms = []
-    for layer in (layers[0], layers[-1]) if layers else ():
-        if len(layer.shapes):
-            geoms.append(layer.shapes.geometry)
-        elif len(layer.segments):
-            s = layer.segments
-            geoms.append(shapely.buffer(segment_lines(s), s.width / 2, quad_segs=2))
-    if not geoms:
-        return None
-    tree = shapely.STRtree(np.concatenate(geoms))
+    """``share(x, y)``: the share of points on copper of the outer layers (pads first; traces when no pads).
+    The index is built on first use: most drill files state their units."""
+    tree = []
 
     def share(x: np.ndarray, y: np.ndarray) -> float:
-        hit, _ = tree.query(shapely.points(x, y), predicate="intersects")
+        if not tree:
+            geoms = []
+            for layer in (layers[0], layers[-1]) if layers else ():
+                s = layer.segments
+                if len(layer.shapes):
+                    geoms.append(layer.shapes.geometry)
+                elif len(s):
+                    geoms.append(shapely.buffer(segment_lines(s), s.width / 2, quad_segs=2))
+            tree.append(shapely.STRtree(np.concatenate(geoms) if geoms else np.zeros(0, dtype=object)))
+        hit, _ = tree[0].query(shapely.points(x, y), predicate="intersects")
         return len(np.unique(hit)) / len(x) if len(x) else 0.0
 
     return share
