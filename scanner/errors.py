@@ -65,3 +65,8 @@ def reading(path: str | Path):
 def being_read(exc: BaseException | None = None) -> str | None:
     """The file ``exc`` was raised while reading, else the innermost file being read now."""
     return getattr(exc, READING_ATTRIBUTE, None) or (_reading[-1] if _reading else None)
+
+
+class InternalError(Exception):
+    """A fault of nearfar itself, not of the input (a figure that is not a finite number): one line on
+    standard error and exit status 4."""

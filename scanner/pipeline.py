@@ -1,4 +1,5 @@
-"""The scan, stage by stage: board + rules -> environments -> net roles -> coupled runs -> scored findings.
+"""The scan, stage by stage: board + rules -> environments -> net roles -> coupled runs -> scored findings,
+then the impedance check and the per-layer impedance table.
 
 Each stage is one call with named inputs and outputs (see the stage packages' docstrings):
 ``board`` (layer environments, net roles), ``coupling`` (finder, runs, coefficients),
@@ -9,13 +10,16 @@ from __future__ import annotations
 from typing import Callable
 
 import numpy as np
+import shapely
 
-from scanner.board.layerstack import board_environments
+from scanner.board.layerstack import BoardEnvironments, board_environments
 from scanner.board.model import Board
 from scanner.board.roles import assign_roles
+from scanner.coupling.layer_impedance import pair_pieces, signal_layer_table
 from scanner.coupling.stage import find_runs
 from scanner.rules import Rules
 from scanner.scoring.results import ScanResult
+from scanner.scoring.impedance import check_impedance
 from scanner.scoring.stage import build_result, score_runs
 
 Progress = Callable[[str], None]
@@ -25,20 +29,45 @@ def run_scan(board: Board, rules: Rules | None = None, progress: Progress | None
     rules = rules or Rules()
     say = progress or (lambda _msg: None)
 
-    env = board_environments(board, rules.stackup, rules.planes)
-    roles = assign_roles(board.nets, rules, _plane_nets(board, env.plane_layers))
+    env = board_environments(board, rules.stackup, rules.planes, rules.scan.skip_layers)
+    roles = assign_roles(board.nets, rules, _plane_nets(board, env))
     reach_mm = max([0.0] + [r.within_spacing_mm for r in rules.class_pairs if r.has_geometry])
     coupled = find_runs(board, env, roles, rules.scan, reach_mm, say)
     say("scoring")
     scored = score_runs(board, rules, roles, env, coupled)
-    return build_result(board, rules, env, coupled, scored, list(env.warnings) + list(board.warnings))
+    pairs = pair_pieces(board, env.signal, roles.partner)
+    impedance = check_impedance(board, rules, roles, env, pairs)
+    warnings = _unknown_layer_names(board, rules) + list(env.warnings) + list(board.warnings) + impedance.notes
+    return build_result(board, rules, roles, env, coupled, scored, warnings,
+                        signal_layer_table(board, env, pairs), impedance)
 
 
-def _plane_nets(board: Board, plane_layers) -> set[str]:
-    """Nets that own copper on a plane layer (their pour makes them reference nets)."""
+def _unknown_layer_names(board: Board, rules: Rules) -> list[str]:
+    """Layer names in the rules that this board does not have (one rules file may serve several boards)."""
+    known = [layer.name for layer in board.layers]
+    out = []
+    for key, names in (("planes", rules.planes), ("[scan] skip_layers", rules.scan.skip_layers)):
+        unknown = [n for n in names if n not in known]
+        if unknown:
+            out.append(f"the rules' {key} names {', '.join(unknown)}, which this board does not have "
+                       f"(its copper layers: {', '.join(known)}); ignored")
+    return out
+
+
+def _plane_nets(board: Board, env: BoardEnvironments) -> set[str]:
+    """Reference nets: every net that owns a pour on a plane layer, and the net owning most copper on a
+    pour that stands in for a plane (the far side of a board without planes; pours drawn as strokes count)."""
     nets = set()
+    pours = {i for e in env.signal.values() if e.reference.kind == "pour" for i in e.reference.layers}
     for layer in board.layers:
-        if layer.index in plane_layers:
-            ids = np.unique(layer.shapes.net[layer.shapes.role == "region"]) if len(layer.shapes) else []
-            nets.update(board.nets[i] for i in ids if i >= 0)
+        shapes, seg = layer.shapes, layer.segments
+        if layer.index in env.plane_layers and len(shapes):
+            nets.update(board.nets[i] for i in np.unique(shapes.net[shapes.role == "region"]) if i >= 0)
+        elif layer.index in pours:
+            regions = shapes.role == "region"
+            net = np.r_[shapes.net[regions], seg.net]
+            area = np.r_[shapely.area(shapes.geometry[regions]), seg.length_mm * seg.width]
+            owned = net >= 0
+            if owned.any():
+                nets.add(board.nets[int(np.bincount(net[owned], weights=area[owned]).argmax())])
     return nets

@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import re
 import tomllib
+import dataclasses
 from dataclasses import dataclass, field, asdict
 from pathlib import Path
 
@@ -21,6 +22,8 @@ from scanner.patterns import compile_patterns
 TERMINATIONS = ("matched", "high-z-receiver")
 DIFF_AGGRESSOR_MODELS = ("two-lines", "odd-mode")
 BUDGET_BASES = ("worst-case", "rss")
+#: largest impedance target accepted (ohm); printed-circuit lines lie far below it
+MAX_IMPEDANCE_OHM = 1000.0
 
 #: default power and ground patterns (common practice in net naming)
 DEFAULT_POWER_PATTERNS = ("GND*", "*_GND", "AGND*", "DGND*", "PGND*", "VSS*", "VCC*", "VDD*", "VBUS", "+*")
@@ -39,6 +42,13 @@ class NetClass:
     next_budget_mv: float | None = None
     fext_budget_mv: float | None = None
     termination: str = "high-z-receiver"
+    z0_target_ohm: float | None = None  # single-ended impedance the class is routed for
+    zdiff_target_ohm: float | None = None  # differential impedance of its pairs
+    impedance_tolerance_pct: float = 10.0
+
+    @property
+    def has_impedance_target(self) -> bool:
+        return self.z0_target_ohm is not None or self.zdiff_target_ohm is not None
 
     @property
     def receiver_gain(self) -> float:
@@ -116,6 +126,9 @@ class ScanSettings:
     budget_basis: str = "worst-case"
     differential_aggressor: str = "two-lines"
     auto_diff_pairs: bool = True
+    #: stretches outside an impedance target shorter than this are counted, not listed (pad neck-downs)
+    impedance_min_length_mm: float = 1.0
+    skip_layers: tuple[str, ...] = ()  # copper layer names left out of the search (the verdict is then incomplete)
 
 
 @dataclass(frozen=True)
@@ -167,11 +180,13 @@ class Rules:
 _CLASS_KEYS = {
     "name": str, "nets": list, "rise_time_ns": float, "swing_v": float,
     "next_budget_pct": float, "fext_budget_pct": float, "next_budget_mv": float, "fext_budget_mv": float,
-    "termination": str,
+    "termination": str, "z0_target_ohm": float, "zdiff_target_ohm": float, "impedance_tolerance_pct": float,
 }
 _SCAN_KEYS = {
     "search_distance_mm": float, "min_coupled_length_mm": float, "angle_tolerance_deg": float,
     "warn_fraction": float, "list_floor": float, "budget_basis": str, "differential_aggressor": str, "auto_diff_pairs": bool,
+    "impedance_min_length_mm": float,
+    "skip_layers": list,
 }
 _STACK_KEYS = {"kind": str, "name": str, "thickness_mm": float, "epsilon_r": float}
 _PAIR_KEYS = {
@@ -225,6 +240,13 @@ def parse_rules(doc: dict, source: str) -> Rules:
         raise bad("[scan] warn_fraction must be in (0, 1]")
     if "list_floor" in scan_kw and not 0 <= scan_kw["list_floor"] <= 1:
         raise bad("[scan] list_floor must be in [0, 1]")
+    if "impedance_min_length_mm" in scan_kw and not 0 <= scan_kw["impedance_min_length_mm"] <= 1000:
+        raise bad("[scan] impedance_min_length_mm must be in [0, 1000]")
+    if "skip_layers" in scan_kw:
+        names = scan_kw["skip_layers"]
+        if not all(isinstance(n, str) and n for n in names):
+            raise bad("[scan] skip_layers must be a list of copper layer names")
+        scan_kw["skip_layers"] = tuple(names)
     scan = ScanSettings(**scan_kw)
 
     classes = []
@@ -246,6 +268,11 @@ def parse_rules(doc: dict, source: str) -> Rules:
             if key in kw and not kw[key] > 0:
                 raise bad(f"{where} {key} must be positive")
         _check_choice(kw.get("termination"), TERMINATIONS, f"{where} termination", bad)
+        for key in ("z0_target_ohm", "zdiff_target_ohm"):
+            if key in kw and not 0 < kw[key] <= MAX_IMPEDANCE_OHM:
+                raise bad(f"{where} {key} must be above 0 and at most {MAX_IMPEDANCE_OHM:g} ohm")
+        if "impedance_tolerance_pct" in kw and not 0 < kw["impedance_tolerance_pct"] < 100:
+            raise bad(f"{where} impedance_tolerance_pct must be between 0 and 100")
         if "next_budget_mv" in kw and "next_budget_pct" not in kw:
             kw["next_budget_pct"] = None
         if "fext_budget_mv" in kw and "fext_budget_pct" not in kw:
@@ -285,12 +312,17 @@ def parse_rules(doc: dict, source: str) -> Rules:
 
     stackup = None
     if "stackup" in doc:
-        stackup = _parse_stackup(doc["stackup"], bad)
+        stackup = dataclasses.replace(_parse_stackup(doc["stackup"], bad), path=source)
 
     class_pairs = _parse_class_pairs(doc.get("class_pair", []), set(names) | {DEFAULT_CLASS.name}, bad)
 
     return Rules(classes=tuple(classes), power_patterns=power_patterns, diff_pairs=tuple(pairs), scan=scan,
                  stackup=stackup, planes=tuple(planes), class_pairs=class_pairs, source=source)
+
+
+def parse_stackup_table(raw, source: str) -> Stackup:
+    """A ``[stackup]`` table (``layers`` top to bottom), checked as in the rules file; errors name ``source``."""
+    return _parse_stackup(raw, lambda msg: InputError(msg, source))
 
 
 def _parse_class_pairs(raw, class_names: set[str], bad) -> tuple[ClassPairRule, ...]:

@@ -9,6 +9,9 @@ S_PER_PS = 1e-12
 MU0 = 1.25663706212e-6  # H/m, CODATA 2018
 EPS0 = 8.8541878128e-12  # F/m, CODATA 2018
 C0 = 299_792_458.0  # m/s, exact
+#: copper thickness per oz/ft² of copper weight: 1.35 mil, the figure fabrication tools commonly use
+#: to turn a copper weight into a thickness (common practice; pure copper would give 1.34 mil)
+MM_PER_OZ_COPPER = 1.35 * MM_PER_MIL
 
 
 def mm_to_m(value_mm):

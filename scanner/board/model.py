@@ -176,7 +176,8 @@ class Stackup:
     """Physical build, top to bottom. ``source`` says where it came from."""
 
     layers: tuple[StackupLayer, ...]
-    source: str  # "job-file", "odbpp-job", "rules", "board-file", "default"
+    source: str  # "job-file", "odbpp-job", "rules", "stackup-file", "board-file", "default"
+    path: str | None = None  # the file it was read from, as shown in messages
 
     @property
     def total_thickness_mm(self) -> float:

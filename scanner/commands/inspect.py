@@ -1,13 +1,18 @@
 """``nearfar inspect``: what nearfar read from a board's files, before any scan."""
 from __future__ import annotations
 
-import json
+import dataclasses
 from pathlib import Path
 
 import click
 
 from scanner import load_board
+from scanner.board.layerstack import board_environments, describe_default, effective_stackup
 from scanner.board.model import Board
+from scanner.board.references import describe_reference, plane_evidence
+from scanner.commands.options import stackup_option, stackup_override
+from scanner.errors import InputError
+from scanner.report.files import json_text
 
 #: faults quoted on the terminal (all of them are in --json)
 SHOWN_FAULTS = 10
@@ -16,6 +21,7 @@ SHOWN_FAULTS = 10
 def inspect_data(board: Board) -> dict:
     """The board summary as plain data (the ``--json`` output)."""
     netting = board.netting
+    references = layer_references(board)
     return {
         "name": board.name,
         "source": board.source,
@@ -26,6 +32,7 @@ def inspect_data(board: Board) -> dict:
             "shapes": len(layer.shapes), "trace_length_mm": round(layer.trace_length_mm, 3),
             "fill_ratio": None if layer.fill_ratio is None else round(layer.fill_ratio, 4),
             "kind_evidence": layer.kind_evidence,
+            "reference": references[layer.index][0], "reference_evidence": references[layer.index][1],
         } for layer in board.layers],
         "outline_mm2": None if board.outline is None else round(float(board.outline.area), 3),
         "left_out": {"objects": board.left_out.objects, "trace_length_mm": round(board.left_out.trace_length_mm, 3),
@@ -37,6 +44,8 @@ def inspect_data(board: Board) -> dict:
             "kind": s.kind, "name": s.name, "thickness_mm": s.thickness_mm, "epsilon_r": s.epsilon_r,
             "copper_index": s.copper_index} for s in board.stackup.layers],
         "stackup_source": None if board.stackup is None else board.stackup.source,
+        "stackup_path": None if board.stackup is None else board.stackup.path,
+        "stackup_assumed": describe_default(len(board.layers)) if board.stackup is None and board.layers else None,
         "netting": None if netting is None else {
             "method": netting.method,
             "netted_trace_fraction": round(netting.netted_trace_fraction, 6),
@@ -49,6 +58,24 @@ def inspect_data(board: Board) -> dict:
         },
         "warnings": list(board.warnings),
     }
+
+
+def layer_references(board: Board) -> list[tuple[str, str | None]]:
+    """Per copper layer, what a scan without rules would reference its traces to, and the evidence."""
+    try:
+        env = board_environments(board, None)
+    except InputError as exc:
+        return [(f"unknown: {exc.message}", None)] * len(board.layers)
+    out = []
+    for layer in board.layers:
+        if layer.index in env.signal:
+            words = describe_reference(board, env.signal[layer.index], env.plane_layers)
+            out.append((words.reference, words.evidence))
+        elif layer.index in env.plane_layers:
+            out.append(("reference plane, no traces on it", plane_evidence(board, layer.index, env.plane_layers)))
+        else:
+            out.append((f"not scanned: {env.skipped.get(layer.index)}", None))
+    return out
 
 
 def _fault(f) -> dict:
@@ -79,15 +106,20 @@ def render_inspect(data: dict) -> str:
                    f"draws on {', '.join(left['layers'])}")
     if data["incomplete"]:
         out += ["incomplete import:"] + [f"  {reason}" for reason in data["incomplete"]]
+    out += ["", "references (from the board's stackup, or the default one; a rules file can change them):"]
+    out += [f"  {l['name']}: {l['reference']}" + (f" ({l['reference_evidence']})" if l["reference_evidence"] else "")
+            for l in data["layers"]]
     holes = data["holes"]
     out += ["", f"nets: {data['nets']}    holes: {holes['plated']} plated, {holes['non_plated']} non-plated"]
     if data["stackup"]:
-        out += ["", f"stackup ({data['stackup_source']}):"]
+        path = f", {data['stackup_path']}" if data.get("stackup_path") else ""
+        out += ["", f"stackup ({data['stackup_source']}{path}):"]
         srows = [(s["kind"], s["name"], f"{s['thickness_mm']:.4f}",
                   "" if s["epsilon_r"] is None else f"{s['epsilon_r']:.2f}") for s in data["stackup"]]
         out += ["  " + line for line in _table(("material", "name", "thick mm", "eps_r"), srows, {2, 3})]
     else:
-        out += ["", "stackup: none in the files (give one in the rules file)"]
+        out += ["", "stackup: none in the files; a scan assumes a typical build, "
+                    f"{data['stackup_assumed']} (give the real one with --stackup FILE or in the rules file)"]
     n = data["netting"]
     if n:
         out += ["", f"netting by {n['method']}: {100 * n['netted_trace_fraction']:.1f}% of trace length carries a "
@@ -111,9 +143,15 @@ def render_inspect(data: dict) -> str:
 @click.option("--board-file", type=click.Path(path_type=Path), default=None,
               help="Board description (TOML): copper files in stack order, planes, netlist, drills.")
 @click.option("--step", default=None, metavar="NAME", help="The step of an ODB++ job to read, when it has several.")
-def command(board, as_json, board_file, step):
-    """Show what nearfar reads from BOARD (a folder, .zip, or ODB++ job .tgz): copper layers in stack order, planes,
-    nets, stackup, how well the copper matched the netlist, and parser warnings."""
-    data = inspect_data(load_board(board, board_file=board_file, step=step))
-    click.echo(json.dumps(data, indent=2) if as_json else render_inspect(data))
+@stackup_option
+def command(board, as_json, board_file, stackup_path, step):
+    """Show what nearfar reads from BOARD (a folder, .zip, or ODB++ job .tgz): copper layers in stack order, planes
+    and the evidence for each, the outline, copper left out, nets, stackup, how well the copper matched the netlist,
+    and parser warnings. With --stackup, the stackup shown is the file's (checked against the board's copper layers)."""
+    the_board = load_board(board, board_file=board_file, step=step)
+    if stackup_path is not None:
+        stackup, _ = effective_stackup(the_board, stackup_override(stackup_path))
+        the_board = dataclasses.replace(the_board, stackup=stackup)
+    data = inspect_data(the_board)
+    click.echo(json_text(data, "inspect --json", indent=2) if as_json else render_inspect(data), nl=not as_json)
     return 0

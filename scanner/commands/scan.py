@@ -1,6 +1,7 @@
 """``nearfar scan``: the main job."""
 from __future__ import annotations
 
+import dataclasses
 import sys
 import time
 from pathlib import Path
@@ -8,7 +9,9 @@ from pathlib import Path
 import click
 
 from scanner import load_board, scan
+from scanner.commands.options import stackup_option, stackup_override
 from scanner.errors import InputError
+from scanner.outputs import check_output_folder
 from scanner.report.files import report_json
 from scanner.report.folder import write_report_folder
 from scanner.report.text import render
@@ -21,6 +24,7 @@ from scanner.rules import load_rules
               help="Rules file (TOML): net classes, budgets, pairs, stackup. Defaults are used and printed without one.")
 @click.option("--board-file", type=click.Path(path_type=Path), default=None,
               help="Board description (TOML) naming layers in stack order, planes and netlist, for files nothing can guess.")
+@stackup_option
 @click.option("--out", "out_dir", type=click.Path(path_type=Path, file_okay=False), default=None,
               help="Folder for report.json, hotspots.csv, images and report.html.")
 @click.option("--top", type=click.IntRange(min=1), default=20, show_default=True,
@@ -28,13 +32,23 @@ from scanner.rules import load_rules
 @click.option("--json", "as_json", is_flag=True, help="Print report.json to standard output instead of the table.")
 @click.option("--no-images", is_flag=True, help="Skip overlay images, waveform plots and the report page.")
 @click.option("--step", default=None, metavar="NAME", help="The step of an ODB++ job to read, when it has several.")
-def command(board, rules_path, board_file, out_dir, top, as_json, no_images, step):
+def command(board, rules_path, board_file, stackup_path, out_dir, top, as_json, no_images, step):
     """Find parallel runs between nets on BOARD (a folder or .zip of Gerber, drill and netlist files, or an
     ODB++ job folder or .tgz), predict NEXT and FEXT on every victim, check the net-class budgets and rank
     the hotspots.
 
-    Exit status: 0 all victims within budget, 1 some victim over budget or a geometric limit broken,
-    2 bad input.
+    Every layer with traces is scanned: against its nearest plane, or, on a board without planes, against
+    the far side of the board (said in the report). The first line gives the verdict and how much signal
+    trace was checked.
+
+    \b
+    Exit status:
+      0  pass: the whole board checked, every victim within budget
+      1  fail: some victim over budget, or a geometric limit broken
+      2  bad input (one line naming the file)
+      3  incomplete: nothing over budget, but part of the board was not checked
+         (a layer skipped by the rules, trace without a net, an import gap)
+      4  internal error in nearfar
     """
     show_progress = not as_json and sys.stderr.isatty()
     started = time.perf_counter()
@@ -46,16 +60,20 @@ def command(board, rules_path, board_file, out_dir, top, as_json, no_images, ste
     if out_dir is not None and board.is_dir() and out_dir.resolve() == board.resolve():
         raise InputError("the output folder is the board folder: reports could overwrite input files "
                          "(give a separate folder, or a subfolder)", path=out_dir)
+    if out_dir is not None:
+        check_output_folder(out_dir)  # before the long part: a folder that cannot be written stops the run now
     rules = load_rules(rules_path)
+    rules = dataclasses.replace(rules, stackup=stackup_override(stackup_path, rules.stackup))
     progress(f"reading {board}")
     the_board = load_board(board, board_file=board_file, step=step)
     result = scan(the_board, rules, progress=progress)
 
+    report = report_json(result)  # every value checked before anything is written or printed
     if out_dir is not None:
         progress(f"writing reports to {out_dir}")
         write_report_folder(result, the_board, out_dir, images=not no_images)
     if as_json:
-        click.echo(report_json(result), nl=False)
+        click.echo(report, nl=False)
     else:
         click.echo(render(result, top=top))
     progress("done")

@@ -6,6 +6,9 @@ import json
 import click
 import numpy as np
 
+from scanner.board.layerstack import stackup_environments
+from scanner.commands.options import stackup_option, stackup_override
+from scanner.coupling.coefficients import section_arguments
 from scanner.physics import (WEAK_COUPLING_LIMIT, Soldermask, coupling_coefficients, piecewise_peaks,
                              saturation_length_m, solve_cross_section, traces_on_layer, weak_coupling_holds)
 from scanner.units import M_PER_MM, S_PER_NS
@@ -13,15 +16,8 @@ from scanner.units import M_PER_MM, S_PER_NS
 _POSITIVE = click.FloatRange(min=0, min_open=True)
 
 
-def _build(widths, spacings, copper, height_below, er_below, height_above, er_above, planes, mask, mask_er):
-    if planes is None:
-        planes = "both" if height_above is not None else "below"
-    if planes == "both" and height_above is None:
-        raise click.UsageError("--planes both needs --height-above (the dielectric up to the upper plane)")
-    if planes == "both" and mask is not None:
-        raise click.UsageError("--mask applies to microstrip (--planes below) only")
-    if mask is not None and height_above is not None:
-        raise click.UsageError("give either --mask or --height-above for a microstrip, not both")
+def _gaps(widths, spacings):
+    """Widths and edge gaps for ``traces_on_layer`` (one width and a spacing: a pair)."""
     if not widths:
         raise click.UsageError("give at least one --width")
     if len(spacings) > 1 and len(spacings) != len(widths) - 1:
@@ -30,13 +26,69 @@ def _build(widths, spacings, copper, height_below, er_below, height_above, er_ab
         widths = widths * 2
     if len(widths) > 1 and not spacings:
         raise click.UsageError("several traces need --spacing")
-    gaps = list(spacings) * (len(widths) - 1) if len(spacings) == 1 else list(spacings)
+    return list(widths), list(spacings) * (len(widths) - 1) if len(spacings) == 1 else list(spacings)
+
+
+def _build(widths, spacings, copper, height_below, er_below, height_above, er_above, planes, mask, mask_er):
+    if height_below is None:
+        raise click.UsageError("give --height-below (or --stackup FILE with --layer)")
+    if planes is None:
+        planes = "both" if height_above is not None else "below"
+    if planes == "both" and height_above is None:
+        raise click.UsageError("--planes both needs --height-above (the dielectric up to the upper plane)")
+    if planes == "both" and mask is not None:
+        raise click.UsageError("--mask applies to microstrip (--planes below) only")
+    if mask is not None and height_above is not None:
+        raise click.UsageError("give either --mask or --height-above for a microstrip, not both")
+    widths, gaps = _gaps(widths, spacings)
     above = [] if height_above is None else [(height_above, er_above or er_below)]
     soldermask = None if mask is None else Soldermask(mask, mask_er)
     try:
-        return traces_on_layer([(height_below, er_below)], above, planes, list(widths), gaps, copper, soldermask)
+        return traces_on_layer([(height_below, er_below)], above, planes, widths, gaps, copper, soldermask)
     except ValueError as exc:
         raise click.UsageError(str(exc)) from exc
+
+
+#: options that describe the layer by hand, which a stackup file replaces
+HAND_OPTIONS = ("copper", "height_below", "er_below", "height_above", "er_above", "planes", "mask", "mask_er")
+
+
+def _from_stackup(ctx: click.Context, path, layer: str | None, plane_names: str | None, widths, spacings):
+    """The cross-section of one copper layer of a stackup file, and a line saying what it is."""
+    given = [f"--{k.replace('_', '-')}" for k in HAND_OPTIONS
+             if ctx.get_parameter_source(k) == click.core.ParameterSource.COMMANDLINE]
+    if given:
+        raise click.UsageError(f"{', '.join(given)} cannot be combined with --stackup (the stackup gives the layer)")
+    if layer is None:
+        raise click.UsageError("--stackup needs --layer (a copper layer name or number from the stackup)")
+    stackup = stackup_override(path)
+    copper = stackup.copper()
+    index = _copper_index(copper, layer, "--layer")
+    planes = ({_copper_index(copper, p.strip(), "--plane-layers") for p in plane_names.split(",") if p.strip()}
+              if plane_names else {s.copper_index for s in copper} - {index})
+    if index in planes:
+        raise click.UsageError(f"--layer {layer} is also named a plane")
+    env = stackup_environments(stackup, planes).signal.get(index)
+    if env is None:
+        raise click.UsageError(f"layer {copper[index].name} has no plane on either side in this stackup")
+    widths, gaps = _gaps(widths, spacings)
+    try:
+        section = traces_on_layer(widths_mm=widths, spacings_mm=gaps, **section_arguments(env))
+    except ValueError as exc:
+        raise click.UsageError(str(exc)) from exc
+    refs = f"{env.height_mm:.4g} mm to its reference"
+    return section, f"layer {copper[index].name} of {stackup.path}: {env.structure}, {refs}"
+
+
+def _copper_index(copper, text: str, option: str) -> int:
+    """A copper layer of the stackup by name (any case) or by number from 1 at the top."""
+    for s in copper:
+        if s.name.lower() == text.lower():
+            return s.copper_index
+    if text.isdigit() and 1 <= int(text) <= len(copper):
+        return int(text) - 1
+    raise click.UsageError(f"{option} {text!r} is not a copper layer of the stackup "
+                           f"({', '.join(s.name for s in copper)}, or 1-{len(copper)})")
 
 
 def section_data(section, aggressor: int, victim: int, rise_time_ns, length_mm, swing_v, receiver) -> dict:
@@ -74,7 +126,8 @@ def section_data(section, aggressor: int, victim: int, rise_time_ns, length_mm, 
 
 def render_section(data: dict) -> str:
     n = data["traces"]
-    lines = ["L (nH/m):"] + ["  " + "  ".join(f"{v * 1e9:10.2f}" for v in row) for row in data["L_per_m"]]
+    lines = [data["layer"]] if data.get("layer") else []
+    lines += ["L (nH/m):"] + ["  " + "  ".join(f"{v * 1e9:10.2f}" for v in row) for row in data["L_per_m"]]
     lines += ["C (pF/m):"] + ["  " + "  ".join(f"{v * 1e12:10.2f}" for v in row) for row in data["C_per_m"]]
     for i in range(n):
         lines.append(f"trace {i}: Z0 {data['z0_ohm'][i]:.2f} ohm, eps_eff {data['eps_eff'][i]:.3f}, "
@@ -103,7 +156,7 @@ def render_section(data: dict) -> str:
               help="Edge-to-edge gap in mm between neighbouring traces; one value applies to every gap.")
 @click.option("--copper", type=click.FloatRange(min=0), default=0.035, show_default=True,
               help="Copper thickness in mm (0: zero-thickness strips).")
-@click.option("--height-below", type=_POSITIVE, required=True, help="Dielectric from the plane to the trace, mm.")
+@click.option("--height-below", type=_POSITIVE, help="Dielectric from the plane to the trace, mm.")
 @click.option("--er-below", type=click.FloatRange(min=1), default=4.2, show_default=True,
               help="Relative permittivity of the dielectric below the trace.")
 @click.option("--height-above", type=_POSITIVE,
@@ -121,15 +174,33 @@ def render_section(data: dict) -> str:
 @click.option("--swing", "swing_v", type=_POSITIVE, default=1.0, show_default=True, help="Aggressor swing in V.")
 @click.option("--receiver", type=click.Choice(["matched", "high_z"]), default="matched", show_default=True,
               help="Victim far-end termination.")
+@stackup_option
+@click.option("--layer", help="With --stackup: the copper layer to solve (its name in the stackup, or its number "
+                              "from 1 at the top).")
+@click.option("--plane-layers", help="With --stackup: the copper layers that are planes, comma-separated (default: "
+                                     "every copper layer but --layer, so its neighbours are its references).")
 @click.option("--json", "as_json", is_flag=True, help="Print the figures as JSON.")
-def command(widths, spacings, copper, height_below, er_below, height_above, er_above, planes, mask, mask_er,
-            aggressor, victim, rise_time_ns, length_mm, swing_v, receiver, as_json):
-    """Solve one cross-section: L and C matrices, impedances, Kb and Kf, and NEXT/FEXT for a coupled length."""
-    section = _build(widths, spacings, copper, height_below, er_below, height_above, er_above, planes, mask, mask_er)
+@click.pass_context
+def command(ctx, widths, spacings, copper, height_below, er_below, height_above, er_above, planes, mask, mask_er,
+            aggressor, victim, rise_time_ns, length_mm, swing_v, receiver, stackup_path, layer, plane_layers, as_json):
+    """Solve one cross-section: L and C matrices, impedances, Kb and Kf, and NEXT/FEXT for a coupled length.
+
+    Describe the layer by hand (--height-below and the options after it), or take it from a stackup file
+    (--stackup FILE --layer NAME)."""
+    where = None
+    if stackup_path is not None:
+        section, where = _from_stackup(ctx, stackup_path, layer, plane_layers, widths, spacings)
+    elif layer is not None or plane_layers is not None:
+        raise click.UsageError("--layer and --plane-layers need --stackup")
+    else:
+        section = _build(widths, spacings, copper, height_below, er_below, height_above, er_above, planes, mask,
+                         mask_er)
     count = len(section.conductors)
     if count > 1 and (aggressor >= count or victim >= count or aggressor == victim):
         raise click.UsageError(f"--aggressor and --victim must be two different traces among 0..{count - 1}")
     if length_mm is not None and rise_time_ns is None:
         raise click.UsageError("--length needs --rise-time")
     data = section_data(section, aggressor, victim, rise_time_ns, length_mm, swing_v, receiver)
+    if where is not None:
+        data["layer"] = where
     click.echo(json.dumps(data, indent=2) if as_json else render_section(data))

@@ -65,10 +65,10 @@ class PreparedPieces:
 class CouplingLookup:
     """Coefficients (Kb, Kf in s/m, velocity in m/s) for pieces on known signal layers."""
 
-    def __init__(self, envs: dict[int, LayerEnvironment], search_distance_mm: float,
+    def __init__(self, envs: dict[int, LayerEnvironment], search_by_layer_mm: dict[int, float],
                  width_anchor_mm: dict[int, float] | None = None):
         self.envs = envs
-        self.max_spacing_mm = {i: max(search_distance_mm * 1.05, TABLE_REACH_HEIGHTS * e.height_mm)
+        self.max_spacing_mm = {i: max(search_by_layer_mm[i] * 1.05, TABLE_REACH_HEIGHTS * e.height_mm)
                                for i, e in envs.items()}
         self.anchor_mm = dict(width_anchor_mm or {})
         self._tables: dict[tuple[int, int], CouplingTable] = {}

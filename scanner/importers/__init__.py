@@ -5,7 +5,7 @@ files best. Importers come from the ``nearfar.importers`` entry-point group.
 """
 from __future__ import annotations
 
-import tempfile
+import os
 from pathlib import Path
 
 from scanner.board.model import Board
@@ -13,6 +13,7 @@ from scanner.errors import InputError, printable
 from scanner.importers.odbpp.archive import TAR_SUFFIXES, extract_job_archive
 from scanner.importers.registry import choose, discover
 from scanner.importers.sources import list_sources
+from scanner.workspace import unpack_folder
 
 __all__ = ["load_board"]
 
@@ -29,11 +30,30 @@ def load_board(path, board_file=None, step: str | None = None) -> Board:
     if path.is_file():
         if path.suffix.lower() != ".zip" and not path.name.lower().endswith(TAR_SUFFIXES):
             raise InputError("expected a board folder, a .zip archive or a .tgz/.tar.gz/.tar ODB++ job", path=path)
-        with tempfile.TemporaryDirectory(prefix="nearfar-") as tmp:
-            root = Path(tmp)
-            extract_job_archive(path, root)
-            return _load_folder(root, board_file, step, where=printable(str(path)), prefix=f"{path.name}!")
+        with unpack_folder() as root:
+            try:
+                extract_job_archive(path, root)
+                return _load_folder(root, board_file, step, where=printable(str(path)), prefix=f"{path.name}!")
+            except (InputError, OSError) as exc:
+                named = _named_in_archive(exc, root, f"{path.name}!")
+                if named is exc:
+                    raise
+                raise named from exc
     return _load_folder(path, board_file, step, where=printable(str(path)), prefix=f"{path}/")
+
+
+def _named_in_archive(exc: InputError | OSError, root: Path, prefix: str) -> InputError | OSError:
+    """The same error, naming a file in the unpacking folder as ``archive!entry`` (that folder is gone
+    by the time anyone reads the message)."""
+    inside = printable(str(root))
+    if isinstance(exc, InputError):
+        if exc.path is None or not exc.path.startswith(inside):
+            return exc
+        return InputError(exc.message, path=prefix + exc.path[len(inside):].lstrip("/"), line=exc.line)
+    name = Path(os.fsdecode(exc.filename)) if exc.filename is not None else None
+    if name is None or not name.is_relative_to(root):
+        return exc
+    return OSError(exc.errno, exc.strerror, prefix + name.relative_to(root).as_posix())
 
 
 def _load_folder(root: Path, board_file: Path | None, step: str | None, where: str, prefix: str) -> Board:

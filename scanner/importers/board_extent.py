@@ -68,7 +68,10 @@ def pad_centres(layers: list[CopperLayer]) -> np.ndarray:
     return np.vstack(parts) if parts else np.zeros((0, 2))
 
 
-def _copper_box(layers: list[CopperLayer]) -> tuple[float, float, float, float] | None:
+def copper_box(layers: list[CopperLayer], outline=None) -> tuple[float, float, float, float] | None:
+    """(x0, y0, x1, y1) in mm of the outline when known, else of all copper; None when there is neither."""
+    if outline is not None and not outline.is_empty:
+        return tuple(float(v) for v in outline.bounds)
     boxes = []
     for layer in layers:
         s = layer.segments
@@ -87,7 +90,7 @@ def _copper_box(layers: list[CopperLayer]) -> tuple[float, float, float, float] 
 
 def board_extent(layers: list[CopperLayer], evidence: np.ndarray) -> BoardExtent | None:
     """The box of the evidence and the copper clumps that touch it (for boards without an outline)."""
-    box = _copper_box(layers)
+    box = copper_box(layers)
     if box is None:
         return None
     what = "drill hits and netlist points"
@@ -117,8 +120,12 @@ def board_extent(layers: list[CopperLayer], evidence: np.ndarray) -> BoardExtent
                        f"the extent of the {what} and the copper around them (no outline)")
 
 
-def leave_out_copper(layers: list[CopperLayer], extent: BoardExtent | None) -> tuple[LeftOut, str | None]:
-    """Remove copper lying wholly outside the extent from the layers (in place); what was left out, and a warning."""
+def leave_out_copper(layers: list[CopperLayer], extent: BoardExtent | None,
+                     incomplete: list[str] | None = None) -> tuple[LeftOut, str | None]:
+    """Remove copper lying wholly outside the extent from the layers (in place); what was left out, and a warning.
+
+    A layer whose copper lies outside entirely is kept as it is, with a reason in ``incomplete``: it was
+    read at another scale or belongs to another board, and cannot be checked against this one."""
     if extent is None:
         return LeftOut(), None
     area = shapely.buffer(extent.shape, EDGE_MARGIN_MM, quad_segs=2)
@@ -129,6 +136,11 @@ def leave_out_copper(layers: list[CopperLayer], extent: BoardExtent | None) -> t
         seg_out = ~shapely.intersects(area, segment_lines(s)) if len(s) else np.zeros(0, dtype=bool)
         shape_out = (~shapely.intersects(area, layer.shapes.geometry) if len(layer.shapes)
                      else np.zeros(0, dtype=bool))
+        if len(seg_out) + len(shape_out) and seg_out.all() and shape_out.all():
+            if incomplete is not None:
+                incomplete.append(f"{layer.path or layer.name}: all its copper lies outside the board ({extent.how}): "
+                                  "other units, or another board's file?")
+            seg_out, shape_out = np.zeros_like(seg_out), np.zeros_like(shape_out)
         outside.append((seg_out, shape_out))
     total = sum(len(l.segments) + len(l.shapes) for l in layers)
     dropped = sum(int(a.sum() + b.sum()) for a, b in outside)

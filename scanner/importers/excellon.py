@@ -82,15 +82,49 @@ _STATEMENTS.mapping = {regex: (_selecting(fn) if fn is ExcellonParser.parse_norm
                        for regex, fn in ExcellonParser.exprs.mapping.items()}
 
 
+#: settings a drill file may not change once coordinates have been read, and how messages call them
+_SETTLED = {"unit": "unit", "number_format": "number format", "zeros": "zero rule"}
+
+
+def _said(name: str, value) -> str:
+    if name == "unit":
+        return getattr(value, "name", "none")
+    if name == "number_format":
+        return "none" if value == (None, None) else f"{value[0]}.{value[1]}"
+    return str(value)
+
+
+class _SettledSettings(FileSettings):
+    """File settings that refuse a new unit, number format or zero rule once coordinates have been read
+    (``INCH`` or ``M72`` after ``METRIC`` holes): gerbonara would read the rest of the file at the new scale."""
+
+    coordinates_read = False
+
+    def __setattr__(self, name, value):
+        if self.coordinates_read and name in _SETTLED and value != getattr(self, name):
+            raise ValueError(f"{_SETTLED[name]} changed from {_said(name, getattr(self, name))} to "
+                             f"{_said(name, value)} after coordinates were read; one file may not use two scales")
+        super().__setattr__(name, value)
+
+
 class _DrillParser(ExcellonParser):
-    """gerbonara's Excellon parser, refusing holes it would drop: coordinates before any tool is chosen."""
+    """gerbonara's Excellon parser, refusing holes it would drop (coordinates before any tool is chosen) and
+    a unit or number format changed after the first coordinates."""
 
     exprs = _STATEMENTS
 
     def __init__(self, settings: FileSettings | None = None):
-        super().__init__(settings)
+        super().__init__()
+        given = settings or FileSettings(number_format=(None, None), zeros="leading")
+        self.settings = _SettledSettings(unit=given.unit, number_format=given.number_format, zeros=given.zeros,
+                                         notation=given.notation)
         self.objects = _DrillObjects("holes and routes")
         self.assumed = None  # how the file was read when it states no units
+
+    def do_move(self, coord_groups):
+        moved = super().do_move(coord_groups)
+        self.settings.coordinates_read = True
+        return moved
 
     def ensure_active_tool(self):
         if self.active_tool is None and self.program_state is ProgramState.HEADER and self.tools:
@@ -158,13 +192,6 @@ def _parse(text: str, name: str, settings: FileSettings | None, log: FileWarning
     return drills
 
 
-def _copy(settings: FileSettings | None) -> FileSettings | None:
-    if settings is None:
-        return None
-    return FileSettings(unit=settings.unit, number_format=settings.number_format, zeros=settings.zeros,
-                        notation=settings.notation)
-
-
 def _units_known(drills: _DrillParser) -> bool:
     return drills.settings.unit is not None or all(o.unit is not None for o in drills.objects)
 
@@ -173,7 +200,7 @@ def _parse_any(text: str, name: str, settings: FileSettings | None, landing, log
     """The file as it states itself (with the side file's settings); else the reading whose holes land on copper."""
     try:
         first_log = FileWarnings(name)
-        drills = _parse(text, name, _copy(settings), first_log)
+        drills = _parse(text, name, settings, first_log)
         if _units_known(drills) or not drills.objects:
             log.absorb(first_log)
             return drills

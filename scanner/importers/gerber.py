@@ -11,10 +11,11 @@ import shapely
 
 from scanner.board.model import NO_NET, Board, CopperLayer, CopperShapes, Holes, NetlistPoints, TraceSegments
 from scanner.errors import InputError, reading
-from scanner.importers.board_extent import (BoardExtent, board_extent, evidence_points, leave_out_copper,
+from scanner.importers.board_extent import (board_extent, copper_box, evidence_points, leave_out_copper,
                                             segment_lines)
 from scanner.importers.boardfile import BOARD_FILE_NAME, BoardFile, read_board_file
 from scanner.importers.excellon import read_drills, side_file_settings
+from scanner.importers.extent import check_holes_on_board, check_netting, check_on_board
 from scanner.importers.gerber_copper import CopperArtwork, read_copper
 from scanner.importers.ipc356 import NetlistRecords, read_ipc356
 from scanner.importers.jobfile import JobFile, read_job_file
@@ -27,10 +28,8 @@ from scanner.importers.sources import SourceFile, folder_name, named_kind
 from scanner.input_limits import SEGMENTS, check_count
 from scanner.board.netmap import assign_nets
 
-#: netlist points further than this outside the board's outline (or copper extent) are off the board (mm)
-OFF_BOARD_MARGIN_MM = 1.0
-#: words every size-limit refusal carries (scanner.input_limits)
-LIMIT_HINT = "NEARFAR_MAX_"
+#: words in the refusals a drill file keeps (not left out): a size limit, or a file that changes its scale
+REFUSED_DRILL_PROBLEMS = ("NEARFAR_MAX_", "may not use two scales")
 #: files larger than this are not read as drill side files (bytes)
 SIDE_FILE_MAX_BYTES = 65536
 
@@ -74,7 +73,8 @@ class GerberImporter:
                 notes[k] = f"{strokes} strokes read as a filled pour" if strokes else ""
 
         netlist = _netlist(files, by_rel, board_cfg)
-        holes, drill_logs = _holes(files, by_rel, board_cfg, job, layers, netlist, warnings, incomplete)
+        holes, drill_logs, drilled_files = _holes(files, by_rel, board_cfg, job, layers, netlist, warnings,
+                                                  incomplete)
         # where the board is: plated holes (all holes when none is plated), and netlist points
         drilled = holes.plated if holes.plated.any() else np.ones(len(holes), dtype=bool)
         points = (netlist.x, netlist.y) if netlist is not None else ((), ())
@@ -85,19 +85,23 @@ class GerberImporter:
             profile_candidates([g for g in gerbers if g not in copper_sources], job.file_functions if job else None),
             evidence)
         extent = outline or board_extent(layers, evidence_points((holes.x[drilled], holes.y[drilled]), points))
+        outline_shape = outline.shape if outline else None
+        for name, part in drilled_files:
+            check_holes_on_board(warnings, incomplete, part.x, part.y, name, layers, outline_shape)
+        if netlist is not None:
+            check_on_board(warnings, incomplete, netlist.x, netlist.y, copper_box(layers, outline_shape),
+                           netlist.path, "netlist points",
+                           lambda k: f"on line {netlist.line[k]} at ({netlist.x[k]:.3f}, {netlist.y[k]:.3f}) mm")
         for k, layer in enumerate(layers):
             if artworks[k].negative and extent is not None:
                 negative_to_pour(layer, extent.shape)
                 notes[k] = "negative image: copper is the board's area minus what the film draws"
                 warnings.append(f"{layer.path}: {notes[k]}")
-        left_out, left_warning = leave_out_copper(layers, extent)
+        left_out, left_warning = leave_out_copper(layers, extent, incomplete)
         if left_warning:
             warnings.append(left_warning)
         board_planes = _board_planes(board_cfg, copper, layers)
         classify_planes(layers, [(c.kind_hint, c.hint_source) for c in copper], board_planes, extent, notes)
-
-        if netlist is not None and (off := _off_board(netlist, extent)):
-            warnings.append(off)
         for log in [a.log for a in artworks] + drill_logs + outline_logs:
             if (summary := log.summary()):
                 warnings.append(summary)
@@ -117,6 +121,7 @@ class GerberImporter:
                 f"{c.source.rel} ({c.recognised_by})" if c.recognised_by else c.source.rel for c in copper)
                 + f" (override with {BOARD_FILE_NAME})")
         assign_nets(board)
+        check_netting(board)
         return board
 
 
@@ -219,24 +224,6 @@ def _unread_files(files: list[SourceFile], job: JobFile | None, cfg: BoardFile |
     return warnings
 
 
-def _off_board(netlist: NetlistRecords, extent: BoardExtent | None) -> str | None:
-    """A warning for netlist points off the board; none of them on it is an error (wrong units or board)."""
-    if extent is None:
-        return None
-    x0, y0, x1, y1 = (float(v) for v in extent.shape.bounds)
-    m = OFF_BOARD_MARGIN_MM
-    off = (netlist.x < x0 - m) | (netlist.x > x1 + m) | (netlist.y < y0 - m) | (netlist.y > y1 + m)
-    if not off.any():
-        return None
-    extent = f"board x {x0:.3f} to {x1:.3f} mm, y {y0:.3f} to {y1:.3f} mm"
-    if off.all():
-        raise InputError(f"none of the netlist's {len(off)} points lies on the board ({extent}); "
-                         "are its units or the board wrong?", path=netlist.path)
-    k = int(np.flatnonzero(off)[0])
-    return (f"{netlist.path}: {int(off.sum())} of {len(off)} netlist points lie off the board ({extent}), the "
-            f"first on line {netlist.line[k]} at ({netlist.x[k]:.3f}, {netlist.y[k]:.3f}) mm; they name no copper")
-
-
 def _layer(index: int, copper: CopperFile, art: CopperArtwork, net_index: dict) -> CopperLayer:
     def ids(names):
         return np.array([net_index[n] if n else NO_NET for n in names], dtype=np.int32)
@@ -278,7 +265,7 @@ def _holes(files, by_rel, cfg: BoardFile | None, job: JobFile | None, layers: li
         chosen = [(f, None, None) for f in files if f.kind == "excellon"]
     side = _side_settings(files)
     landing = _landing_test(layers)
-    parts, logs = [], []
+    logs, named = [], []
     for src, plated, source in chosen:
         if plated is None and job is not None and (fn := job.file_functions.get(src.path.name)):
             if fn[0] in ("Plated", "NonPlated"):
@@ -286,19 +273,20 @@ def _holes(files, by_rel, cfg: BoardFile | None, job: JobFile | None, layers: li
         try:
             drill = read_drills(src.path, src.name, plated, source, side.get(src.rel.rpartition("/")[0]), landing)
         except InputError as exc:
-            if LIMIT_HINT in exc.message:
-                raise  # a size limit is a refusal, not a damaged file
+            if any(words in exc.message for words in REFUSED_DRILL_PROBLEMS):
+                raise
             effect = _without_drills(netlist is not None)
             warnings.append(f"{exc.one_line()}; drill file not used: {effect}")
             incomplete.append(f"drill file {src.name} unreadable: {effect}")
             continue
-        parts.append(drill.holes)
         logs.append(drill.log)
+        named.append((src.name, drill.holes))
         if drill.assumed:
             warnings.append(f"{src.name}: {drill.assumed}")
-    if not parts:
-        return Holes.empty(), logs
-    return Holes(*(np.concatenate([getattr(h, k) for h in parts]) for k in ("x", "y", "diameter", "plated", "net"))), logs
+    if not named:
+        return Holes.empty(), logs, named
+    return (Holes(*(np.concatenate([getattr(h, k) for _, h in named]) for k in ("x", "y", "diameter", "plated", "net"))),
+            logs, named)
 
 
 def _without_drills(has_netlist: bool) -> str:

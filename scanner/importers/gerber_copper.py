@@ -26,6 +26,10 @@ ZERO_LENGTH_MM = 1e-6
 PARSER_ERRORS = (SyntaxError, ValueError, KeyError, IndexError, TypeError, AttributeError,
                  AssertionError, ZeroDivisionError, ArithmeticError)
 
+#: decimal digits a Gerber coordinate format may have: the specification says 4 to 6 (as quoted in the
+#: gerber-types documentation); 3 and 7 are read too, as older exporters and gerbonara use them
+FS_DECIMALS = (3, 7)
+
 _GERBONARA_WHERE = re.compile(r'^(?:.*?):(\d+)\s+(?:"[^"]*":\s*)?(.*)$', re.S)
 
 
@@ -137,6 +141,19 @@ class _CopperParser(GerberParser):
     def _parse_old_unit(self, match):
         self._refuse_unit_change(Inch if match["mode"] == "G70" else MM)
         super()._parse_old_unit(match)
+
+    def _parse_format_spec(self, match):
+        integer, decimal = int(match["x"][0]), int(match["x"][1])
+        if match["x"] != match["y"]:
+            raise ValueError(f"coordinate format differs for X ({match['x']}) and Y ({match['y']})")
+        if not (1 <= integer <= 6 and FS_DECIMALS[0] <= decimal <= FS_DECIMALS[1]):
+            raise ValueError(f"coordinate format {integer}.{decimal} is not usable: the Gerber specification allows up "
+                             f"to 6 integer and {FS_DECIMALS[0]} to {FS_DECIMALS[1]} decimal digits")
+        given = self.file_settings.number_format
+        if given != (None, None) and given != (integer, decimal):
+            raise ValueError(f"coordinate format changed from {given[0]}.{given[1]} to {integer}.{decimal} within the "
+                             "file (it may be set once, in the header)")
+        super()._parse_format_spec(match)
 
     def _parse_aperture_definition(self, match):
         if self.file_settings.unit is None:

@@ -86,6 +86,9 @@ def read_ipc356(path: Path, display_name: str | None = None) -> NetlistRecords:
                 if value not in UNIT_STEP_MM:
                     raise InputError(f"IPC-D-356 units {value!r} not known (expected one of "
                                      f"{', '.join(sorted(UNIT_STEP_MM))})", path=name, line=number)
+                if rows and UNIT_STEP_MM[value] != step:
+                    raise InputError(f"IPC-D-356 units changed to {value!r} after records were read; one file may "
+                                     "not use two scales", path=name, line=number)
                 step = UNIT_STEP_MM[value]
             elif key.startswith("NNAME"):
                 aliases[key] = value

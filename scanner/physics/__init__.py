@@ -30,6 +30,9 @@ Victim noise (weak coupling, docs/physics.md §3), for one piece or a chain of p
     far_end_peak(kf, length_m, rise_time_s, swing_v)
     piecewise_peaks(kb, kf, length_m, velocity_m_per_s, rise_time_s, swing_v, far_end_receiver="high_z")
 
+Impedances of a layer (scanner.physics.impedance): ``trace_impedance(width_mm, **layer)`` (Z0),
+``differential_impedance(width_mm, gap_mm, **layer)`` (2 Zo) and ``DifferentialTable`` over the gap.
+
 ``simulate_coupled_lines`` (scanner.physics.mtl) solves the full lossless
 multiconductor line equations with resistive terminations, as a check on the
 weak-coupling figures and for strong coupling (``weak_coupling_holds``).
@@ -41,6 +44,7 @@ from scanner.physics.coupling import (WEAK_COUPLING_LIMIT, CouplingTable, coupli
 from scanner.physics.crosstalk import (VictimNoise, far_end_peak, far_end_waveform, near_end_peak, near_end_waveform,
                                        piecewise_peaks, ramp_duration_s, saturation_length_m)
 from scanner.physics.geometry import Conductor, CrossSection, Dielectric, Soldermask, traces_on_layer
+from scanner.physics.impedance import DifferentialTable, differential_impedance, trace_impedance
 from scanner.physics.matrices import LineMatrices
 from scanner.physics.mesh import DEFAULT_MESH, MeshSettings
 from scanner.physics.mtl import CoupledLineResponse, LineSection, simulate_coupled_lines
@@ -49,6 +53,7 @@ from scanner.physics.solver import TOLERANCE, solve_cross_section
 __all__ = [
     "Conductor", "CrossSection", "Dielectric", "Soldermask", "traces_on_layer",
     "LineMatrices", "solve_cross_section", "MeshSettings", "DEFAULT_MESH", "TOLERANCE",
+    "trace_impedance", "differential_impedance", "DifferentialTable",
     "coupling_coefficients", "CouplingTable", "weak_coupling_holds", "WEAK_COUPLING_LIMIT",
     "near_end_peak", "far_end_peak", "piecewise_peaks", "saturation_length_m", "ramp_duration_s", "VictimNoise",
     "near_end_waveform", "far_end_waveform",

@@ -1,12 +1,12 @@
-"""report.json and hotspots.csv, written atomically."""
+"""report.json and hotspots.csv as text."""
 from __future__ import annotations
 
 import csv
 import io
 import json
-from pathlib import Path
+import math
 
-from scanner.outputs import write_atomic
+from scanner.errors import InternalError
 from scanner.scoring.results import ScanResult
 
 CSV_COLUMNS = ("rank", "status", "victim", "aggressor", "victim_class", "aggressor_class", "layer", "structure",
@@ -14,14 +14,51 @@ CSV_COLUMNS = ("rank", "status", "victim", "aggressor", "victim_class", "aggress
                "next_pct", "fext_pct", "next_budget_mv", "fext_budget_mv", "budget_used", "aggressor_model",
                "fix_spacing_needed_mm", "fix_max_length_mm", "fix_layer")
 
+#: first characters that make a spreadsheet read a cell as a formula (or hide the start of one)
+FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
+
+
+def json_text(data, what: str, **dump_args) -> str:
+    """``data`` as JSON text; a value that is not a finite number (JSON has no NaN or Infinity) is refused
+    as an internal error naming where it is, before anything is written or printed."""
+    try:
+        return json.dumps(data, allow_nan=False, **dump_args) + "\n"
+    except ValueError:
+        where = not_finite_at(data)
+        if where is None:
+            raise
+        raise InternalError(f"{what}: {where} is not a finite number; nothing was written") from None
+
+
+def not_finite_at(data, where: str = "") -> str | None:
+    """The first place in nested dicts and lists holding NaN or an infinity (``hotspots[3].next_mv``)."""
+    if isinstance(data, float):
+        return None if math.isfinite(data) else f"{where or 'the value'} ({data})"
+    items = data.items() if isinstance(data, dict) else enumerate(data) if isinstance(data, (list, tuple)) else ()
+    for key, value in items:
+        inner = f"{where}[{key}]" if isinstance(key, int) else f"{where}.{key}" if where else str(key)
+        if (found := not_finite_at(value, inner)) is not None:
+            return found
+    return None
+
 
 def report_json(result: ScanResult) -> str:
-    return json.dumps(result.to_dict(), indent=1, allow_nan=False) + "\n"
+    return json_text(result.to_dict(), "report.json", indent=1)
+
+
+def spreadsheet_safe(value):
+    """A text cell a spreadsheet would run as a formula gets a leading apostrophe (numbers stay numbers)."""
+    if isinstance(value, str) and value.startswith(FORMULA_START):
+        return "'" + value
+    return value
 
 
 def hotspots_csv(result: ScanResult) -> str:
+    """One row per listed hotspot under a header; the first line, a comment, names the run. Lines end in CRLF
+    as RFC 4180 has it, which also makes the writer quote a cell holding a carriage return."""
     buf = io.StringIO()
-    w = csv.writer(buf, lineterminator="\n")
+    buf.write(f"# nearfar run {result.run_id}, {result.created}\r\n")
+    w = csv.writer(buf, lineterminator="\r\n")
     w.writerow(CSV_COLUMNS)
     for h in result.hotspots:
         d = h.to_dict()
@@ -29,10 +66,5 @@ def hotspots_csv(result: ScanResult) -> str:
         d["fix_spacing_needed_mm"] = fix.get("spacing_needed_mm")
         d["fix_max_length_mm"] = fix.get("max_length_mm")
         d["fix_layer"] = (fix.get("alternative_layer") or {}).get("layer")
-        w.writerow(["" if d.get(k) is None else d.get(k) for k in CSV_COLUMNS])
+        w.writerow(["" if d.get(k) is None else spreadsheet_safe(d.get(k)) for k in CSV_COLUMNS])
     return buf.getvalue()
-
-
-def write_tables(result: ScanResult, out_dir: Path) -> list[Path]:
-    return [write_atomic(out_dir / "hotspots.csv", hotspots_csv(result)),
-            write_atomic(out_dir / "report.json", report_json(result))]

@@ -3,7 +3,7 @@
 Files (names from ``scanner.report.names``): ``overlay-<layer>.png/.svg`` for each
 signal layer with findings shown, ``overlay-all.png/.svg``, and for the first
 ``top`` ranks ``hotspot-<rank>.png`` and ``wave-<rank>.png``. Which findings are
-shown is decided in ``scanner.report.marks``. Every file is written atomically.
+shown is decided in ``scanner.report.marks``. Every image names the run that drew it.
 """
 from __future__ import annotations
 
@@ -18,7 +18,7 @@ from matplotlib.lines import Line2D
 from matplotlib.patches import Rectangle
 
 from scanner.board.model import Board
-from scanner.outputs import write_atomic
+from scanner.outputs import write_file
 from scanner.report import names, overlay, palette
 from scanner.report.copper import draw_copper, draw_outline, stroke_bounds
 from scanner.report.marks import (Finding, Mark, RoleTraces, composite_marks, has_geometric, layer_marks, layer_roles,
@@ -36,12 +36,20 @@ CROP_VIEW_IN = ((8.5, 5.5), (6.5, 3.2))
 WORST_HALO_PT = 5.0
 
 
-def _save(fig, path: Path, fmt: str, dpi: int) -> Path:
+def run_metadata(result: ScanResult, fmt: str) -> dict:
+    """What an image says about the run that drew it: the run id (SVG ``dc:identifier``, PNG text ``nearfar-run``)
+    and the time."""
+    if fmt == "svg":
+        return {"Identifier": result.run_id, "Date": result.created}
+    return {"nearfar-run": result.run_id, "Creation Time": result.created}
+
+
+def _save(fig, path: Path, fmt: str, dpi: int, result: ScanResult) -> Path:
     buf = io.BytesIO()
     with matplotlib.rc_context({"svg.hashsalt": "nearfar", "svg.fonttype": "path"}):
-        fig.savefig(buf, format=fmt, dpi=dpi, facecolor=fig.get_facecolor(),
-                    **({"metadata": {"Date": None}} if fmt == "svg" else {"pil_kwargs": {"compress_level": 1}}))
-    return write_atomic(path, buf.getvalue())
+        fig.savefig(buf, format=fmt, dpi=dpi, facecolor=fig.get_facecolor(), metadata=run_metadata(result, fmt),
+                    **({} if fmt == "svg" else {"pil_kwargs": {"compress_level": 1}}))
+    return write_file(path, buf.getvalue())
 
 
 def board_bounds(board: Board) -> tuple[float, float, float, float]:
@@ -160,10 +168,11 @@ def write_images(result: ScanResult, board: Board, out_dir: str | Path, top: int
     overlays.append((names.COMPOSITE_STEM, lambda: composite_figure(result, board, shown)))
     for stem, make in overlays:
         fig = make()
-        written += [_save(fig, out_dir / f"{stem}.{fmt}", fmt, OVERLAY_DPI) for fmt in ("png", "svg")]
+        written += [_save(fig, out_dir / f"{stem}.{fmt}", fmt, OVERLAY_DPI, result) for fmt in ("png", "svg")]
     for hotspot in result.hotspots[:top]:
         written.append(_save(crop_figure(result, board, hotspot), out_dir / names.crop_file(hotspot.rank), "png",
-                             DETAIL_DPI))
+                             DETAIL_DPI, result))
         waves = finding_waveforms(result, board, hotspot)
-        written.append(_save(wave_figure(waves, hotspot), out_dir / names.wave_file(hotspot.rank), "png", DETAIL_DPI))
+        written.append(_save(wave_figure(waves, hotspot), out_dir / names.wave_file(hotspot.rank), "png", DETAIL_DPI,
+                             result))
     return written

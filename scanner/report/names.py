@@ -31,3 +31,12 @@ def crop_file(rank: int) -> str:
 
 def wave_file(rank: int) -> str:
     return f"wave-{rank}.png"
+
+
+#: names of the files a report folder holds (and the temporary files of earlier versions of nearfar)
+_REPORT_FILE = re.compile(r"report\.json|report\.html|hotspots\.csv|overlay-[A-Za-z0-9._-]+\.(?:png|svg)"
+                          r"|(?:hotspot|wave)-\d+\.png|\..+\.part")
+
+
+def is_report_file(name: str) -> bool:
+    return _REPORT_FILE.fullmatch(name) is not None

@@ -3,7 +3,7 @@
 No scripts, no fonts, no style sheets or images from the network: the styles are
 inline and the images are the files beside the page (``scanner.report.images``),
 linked by relative names and only where they exist. All text from the board and
-the rules is escaped. Written atomically, after report.json and hotspots.csv.
+the rules is escaped. Written last, after report.json and hotspots.csv.
 """
 from __future__ import annotations
 
@@ -11,8 +11,9 @@ import html
 from importlib import metadata
 from pathlib import Path
 
-from scanner.outputs import write_atomic
+from scanner.outputs import write_file
 from scanner.report import names, palette
+from scanner.report.checked import board_notes, gap_lines, reference_lines, verdict_sentence
 from scanner.report.marks import PASS_SHOWN_TOP, geometric_label, shown_findings
 from scanner.scoring.results import CAUTION, SCHEMA, Hotspot, ScanResult, VictimTotal
 
@@ -135,10 +136,27 @@ def _header(result: ScanResult, folder: _Folder) -> Markup:
     data = tag("p", ["Data: "] + _joined(files, ", "), class_="muted") if files else Markup("")
     sections = [("board", "Board"), ("rules", "Rules"), ("maps", "Maps"), ("findings", "Findings")]
     sections += [("geometric", "Geometric limits")] if result.geometric else []
+    sections += [("impedance", "Impedance")] if result.impedance is not None and result.impedance.classes else []
     sections += [("details", "Top findings"), ("victims", "Victims"), ("assumptions", "Assumptions")]
     return Markup(tag("h1", f"Crosstalk report: {result.board.get('name', '')}") + verdict
                   + tag("p", [tag("strong", "Caution. "), CAUTION], class_="caution")
                   + tag("nav", [link(f"#{a}", t) for a, t in sections]) + data)
+
+
+def _checked(result: ScanResult) -> Markup:
+    """The verdict and what was checked: a block with its own inline styles, first on the page."""
+    verdict = result.verdict
+    colour = palette.STATUS_COLOUR["warn" if verdict == "incomplete" else verdict]
+    text = palette.STATUS_TEXT["warn" if verdict == "incomplete" else verdict]
+    word, _, rest = verdict_sentence(result).partition(": ")
+    head = tag("p", [tag("strong", word, style=f"background:{colour};color:{text};padding:0.1rem 0.55rem;"
+                                                 "border-radius:0.5rem;margin-right:0.5rem"), rest],
+               style="margin:0;font-size:1.1rem")
+    gaps = tag("ul", [tag("li", line) for line in gap_lines(result)], style="margin:0.4rem 0 0;padding-left:1.3rem")
+    refs = tag("ul", [tag("li", line) for line in reference_lines(result) + board_notes(result)],
+               style="margin:0.4rem 0 0;padding-left:1.3rem;font-size:0.85rem;color:#5b544a")
+    return tag("section", [head, gaps if result.unchecked else "", refs], id="checked",
+               style=f"border:2px solid {colour};border-radius:6px;padding:0.6rem 0.9rem;margin:1rem 0 0.6rem")
 
 
 def _joined(items: list[Markup], sep: str) -> list:
@@ -167,14 +185,49 @@ def _board(result: ScanResult) -> Markup:
     stack = table(["", "name", "thickness mm", "εr"],
                   [[s.get("kind"), s.get("name"), num(s.get("thickness_mm")), num(s.get("epsilon_r"))]
                    for s in st.get("layers", [])], numeric={2, 3})
-    envs = table(["signal layer", "structure", "height to plane mm", "trace thickness mm"],
-                 [[name, e.get("structure"), num(e.get("height_to_plane_mm")), num(e.get("trace_thickness_mm"))]
-                  for name, e in st.get("signal_layers", {}).items()], numeric={2, 3})
     warnings = tag("ul", [tag("li", w) for w in result.warnings]) if result.warnings else tag("p", "None.")
     return Markup(tag("h2", "Board", id="board") + facts(info) + tag("h3", "Copper layers") + layers
                   + tag("h3", f"Stackup (from {st.get('source', 'unknown')})") + stack
-                  + tag("h3", "Scanned layers") + envs
+                  + _signal_layers(st)
                   + tag("h3", f"Warnings ({len(result.warnings)})") + warnings)
+
+
+def _signal_layers(st: dict) -> Markup:
+    """Each scanned layer's cross-section and impedances at the board's own width and pair gap."""
+    rows = [[e.get("name", name), e.get("structure"), ", ".join(e.get("references", [])) or "–",
+             num(e.get("height_mm")), num(e.get("height_second_mm")), num(e.get("width_mm")), num(e.get("z0_ohm")),
+             num(e.get("pair_width_mm")), num(e.get("gap_mm")), num(e.get("zdiff_ohm")),
+             "pairs" if e.get("gap_source") == "pairs" else "assumed (= width)"]
+            for name, e in st.get("signal_layers", {}).items()]
+    headers = ["signal layer", "structure", "references", "height mm", "to 2nd plane mm", "width mm", "Z0 Ω",
+               "pair width mm", "gap mm", "Zdiff Ω", "gap from"]
+    return Markup(tag("h3", "Scanned layers and their impedance")
+                  + tag("p", "At each layer's most used trace width and differential-pair gap, from the same field "
+                             "solver; compare with the fabricator's impedance table.", class_="muted")
+                  + tag("div", table(headers, rows, numeric=set(range(3, 10))), class_="scroll"))
+
+
+def _impedance(result: ScanResult) -> Markup:
+    """Routed stretches outside their class's impedance target (only when some class sets one)."""
+    check = result.impedance
+    if check is None or not check.classes:
+        return Markup("")
+    targets = [[c.net_class, num(c.z0_target_ohm), num(c.zdiff_target_ohm), f"±{c.tolerance_pct:g} %",
+                num(c.checked_mm, 6), num(c.pair_checked_mm, 6), f"{c.stretches} ({num(c.outside_mm, 6)} mm)",
+                f"{c.short_stretches} ({num(c.short_mm, 6)} mm)", num(c.not_checked_mm, 6)] for c in check.classes]
+    rows = [[badge(x.status), x.net_class, x.net, x.kind, x.layer, num(x.length_mm, 4), num(x.width_mm),
+             num(x.gap_mm), num(x.z_ohm, 4), f"{x.target_ohm:g}", f"{x.deviation_pct:+.0f} %",
+             two_line(f"{x.x_mm:.2f}", f"{x.y_mm:.2f}")] for x in check.stretches]
+    return Markup(tag("h2", f"Impedance off target ({len(check.stretches)})", id="impedance")
+                  + tag("p", f"Traces of classes with an impedance target, solved at their own width and layer (pairs "
+                             f"also at their gap). Stretches shorter than {check.min_length_mm:g} mm (neck-downs at "
+                             "pads) are counted, not listed.", class_="muted")
+                  + table(["class", "Z0 target Ω", "Zdiff target Ω", "tolerance", "traces checked mm",
+                           "pairs checked mm", "off target", "shorter, not listed", "not checked mm"], targets,
+                          numeric={1, 2, 4, 5, 8})
+                  + tag("div", table(["status", "class", "net", "kind", "layer", "length mm", "width mm", "gap mm",
+                                      "Z Ω", "target Ω", "off by", "x / y mm"], rows, numeric=set(range(5, 12)),
+                                     row_classes=[f"row-{x.status}" for x in check.stretches]), class_="scroll"))
 
 
 def _budget_text(c: dict, kind: str) -> str:
@@ -382,8 +435,8 @@ def _assumptions(result: ScanResult) -> Markup:
                      "equations (sections solved with the field solver, resistive ends); those figures are shown as "
                      "'exact' beside the estimate.")
     if result.stackup.get("source") == "default":
-        items.insert(0, "No stackup came with the board or the rules: an assumed evenly spaced build was used, so "
-                        "every figure here is provisional.")
+        items.insert(0, "No stackup came with the board, a stackup file or the rules: a typical symmetric build was "
+                        "assumed (its values are in the warnings), so every figure here is provisional.")
     return Markup(tag("h2", "Assumptions", id="assumptions") + tag("ul", [tag("li", i) for i in items])
                   + tag("p", [tag("strong", "Caution. "), CAUTION], class_="caution"))
 
@@ -398,14 +451,16 @@ def _version() -> str:
 def render_page(result: ScanResult, out_dir: str | Path) -> str:
     """The page's HTML; links only to files that exist in ``out_dir``."""
     folder = _Folder(Path(out_dir))
-    body = (_header(result, folder) + _board(result) + _rules(result) + _maps(result, folder)
-            + _findings(result, folder) + _geometric(result, folder) + _details(result, folder) + _victims(result.victims) + _assumptions(result)
-            + tag("footer", f"nearfar {_version()}; data schema {SCHEMA}.", class_="muted"))
+    body = (_checked(result) + _header(result, folder) + _board(result) + _rules(result) + _maps(result, folder)
+            + _findings(result, folder) + _geometric(result, folder) + _impedance(result) + _details(result, folder)
+            + _victims(result.victims) + _assumptions(result)
+            + tag("footer", f"nearfar {_version()}; data schema {SCHEMA}; run {result.run_id}, {result.created}.",
+                  class_="muted"))
     head = Markup(tag("meta", charset="utf-8") + tag("meta", name="viewport", content="width=device-width, initial-scale=1")
                   + tag("title", f"Crosstalk report: {result.board.get('name', '')}") + tag("style", Markup(_style())))
     return Markup("<!DOCTYPE html>\n") + tag("html", [tag("head", head), tag("body", body)], lang="en") + "\n"
 
 
 def write_page(result: ScanResult, out_dir: str | Path) -> Path:
-    """Write report.html into ``out_dir`` (atomically)."""
-    return write_atomic(Path(out_dir) / PAGE_FILE, render_page(result, out_dir))
+    """Write report.html into ``out_dir`` (a staging folder: ``scanner.report.folder``)."""
+    return write_file(Path(out_dir) / PAGE_FILE, render_page(result, out_dir))

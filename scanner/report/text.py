@@ -1,6 +1,8 @@
 """The terminal report: settings in force, a compact ranked table, a summary line."""
 from __future__ import annotations
 
+from scanner.report.checked import (VERDICT_WORD, board_notes, checked_sentence, gap_lines, reference_lines,
+                                    verdict_sentence)
 from scanner.scoring.results import CAUTION, ScanResult
 
 STATUS_MARK = {"fail": "FAIL", "warn": "warn", "pass": "ok"}
@@ -12,15 +14,17 @@ def _trim(text: str, width: int) -> str:
 
 def render(result: ScanResult, top: int = 20) -> str:
     s = result.settings
-    lines = [f"nearfar scan of {result.board['name']} ({result.board['format']}, "
-             f"{len(result.board['layers'])} copper layers, {result.board['nets']} nets)",
-             f"stackup: {result.stackup['source']}   rules: {result.rules['source']}   "
-             f"search distance {s['search_distance_mm']} mm ({s['search_distance_source']}), "
-             f"runs shorter than {s['min_coupled_length_mm']} mm ignored, "
-             f"parallel within {s['angle_tolerance_deg']}°",
-             "net classes (aggressor edge; victim budgets and termination):"]
+    lines = [verdict_sentence(result)] + gap_lines(result)
+    lines += [f"nearfar scan of {result.board['name']} ({result.board['format']}, "
+              f"{len(result.board['layers'])} copper layers, {result.board['nets']} nets)",
+              f"stackup: {result.stackup['source']}{_path(result.stackup)}   rules: {result.rules['source']}   "
+              f"search distance {_search_text(s)} ({s['search_distance_source']}), "
+              f"runs shorter than {s['min_coupled_length_mm']} mm ignored, "
+              f"parallel within {s['angle_tolerance_deg']}°"]
+    lines += [f"  {line}" for line in reference_lines(result) + board_notes(result)]
+    lines.append("net classes (aggressor edge; victim budgets and termination):")
     lines += [f"  {c['name']:<14} {', '.join(c['patterns'])[:40]:<40} tr {c['rise_time_ns']:g} ns, {c['swing_v']:g} V; "
-              f"NEXT ≤ {_budget(c, 'next')}, FEXT ≤ {_budget(c, 'fext')}; {c['termination']}"
+              f"NEXT ≤ {_budget(c, 'next')}, FEXT ≤ {_budget(c, 'fext')}; {c['termination']}{_targets(c)}"
               for c in result.rules["classes"] + [result.rules["default_class"]]]
     if result.stackup["source"] == "default":
         lines.append("!" * 78)
@@ -67,15 +71,63 @@ def render(result: ScanResult, top: int = 20) -> str:
                          f"{'+'.join(g.layers)}: {g.parallel_mm:.1f} mm within {g.within_spacing_mm:g} mm "
                          f"(limit {g.max_parallel_mm:g} mm), closest {g.min_spacing_mm:.3f} mm at "
                          f"{g.x_mm:.2f},{g.y_mm:.2f}")
+    lines += _impedance_lines(result.impedance, top)
     sm = result.summary
     lines += ["", f"{sm['victims']} victims: {sm['victims_fail']} fail, {sm['victims_warn']} warn, "
-                  f"{sm['victims_pass']} pass — {sm['coupled_runs']} coupled runs scored. "
-                  f"Overall: {result.worst_status.upper()}",
+                  f"{sm['victims_pass']} pass — {sm['coupled_runs']} coupled runs scored; {checked_sentence(result)}. "
+                  f"Overall: {VERDICT_WORD[result.verdict]}",
               f"caution: {CAUTION}"]
     return "\n".join(lines)
+
+
+def _search_text(settings: dict) -> str:
+    """The search distance, or its range when the layers differ."""
+    values = sorted(set((settings.get("search_distance_by_layer_mm") or {}).values()))
+    if len(values) > 1:
+        return f"{values[0]:.3g}–{values[-1]:.3g} mm by layer"
+    return f"{settings['search_distance_mm']:g} mm"
 
 
 def _budget(c: dict, kind: str) -> str:
     mv = c.get(f"{kind}_budget_mv")
     return f"{mv:g} mV" if mv is not None else f"{c.get(f'{kind}_budget_pct'):g}%"
 
+
+
+def _targets(c: dict) -> str:
+    parts = [f"{label} {c[key]:g} ohm" for label, key in (("Z0", "z0_target_ohm"), ("Zdiff", "zdiff_target_ohm"))
+             if c.get(key) is not None]
+    return f"; {' / '.join(parts)} ±{c['impedance_tolerance_pct']:g}%" if parts else ""
+
+
+def _path(stackup: dict) -> str:
+    return f" ({stackup['path']})" if stackup.get("path") and stackup["source"] == "stackup-file" else ""
+
+
+def _impedance_lines(check, top: int) -> list[str]:
+    """The impedance check: each class's targets and what lies outside them, then the stretches."""
+    if check is None or not check.classes:
+        return []
+    lines = ["", "impedance targets (single-ended Z0 / differential; stretches from "
+                 f"{check.min_length_mm:g} mm listed):"]
+    for c in check.classes:
+        targets = " / ".join(f"{t:g} ohm" if t is not None else "-" for t in (c.z0_target_ohm, c.zdiff_target_ohm))
+        unchecked = f", {c.not_checked_mm:g} mm on unscanned layers not checked" if c.not_checked_mm else ""
+        lines.append(f"  {c.net_class:<14} {targets} ±{c.tolerance_pct:g}%: checked {c.checked_mm:g} mm of traces, "
+                     f"{c.pair_checked_mm:g} mm of coupled pairs; outside: {c.stretches} stretches, "
+                     f"{c.outside_mm:g} mm (+{c.short_stretches} shorter){unchecked}")
+    header = ("status", "class", "net", "kind", "layer", "len mm", "width mm", "gap mm", "Z ohm", "target", "off",
+              "at x,y mm")
+    rows = [(STATUS_MARK[s.status], _trim(s.net_class, 14), _trim(s.net, 24), s.kind, s.layer, f"{s.length_mm:.1f}",
+             f"{s.width_mm:.3f}", "-" if s.gap_mm is None else f"{s.gap_mm:.3f}", f"{s.z_ohm:.1f}",
+             f"{s.target_ohm:g}", f"{s.deviation_pct:+.0f}%", f"{s.x_mm:.2f},{s.y_mm:.2f}")
+            for s in check.stretches[:top]]
+    if rows:
+        widths = [max(len(r[i]) for r in rows + [header]) for i in range(len(header))]
+        right = {5, 6, 7, 8, 9, 10}
+        for r in [header] + rows:
+            lines.append("  " + "  ".join(c.rjust(w) if i in right else c.ljust(w)
+                                          for i, (c, w) in enumerate(zip(r, widths))).rstrip())
+        if len(check.stretches) > top:
+            lines.append(f"  … {len(check.stretches) - top} more stretches in report.json")
+    return lines

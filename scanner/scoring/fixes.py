@@ -114,7 +114,7 @@ def _bisect(fn, lo, hi, increasing: bool, log: bool) -> np.ndarray:
 
 
 def _alternative_layers(sub, runs, lookup, board, width, spacing, length_m, piece_run):
-    striplines = sorted(i for i, e in lookup.envs.items() if e.structure == "stripline")
+    striplines = sorted(i for i, e in lookup.envs.items() if e.structure == "stripline" and not e.on_plane)
     out = [None] * len(sub)
     if not striplines:
         return out

@@ -1,19 +1,34 @@
 """Findings: scored coupled runs, per-victim totals, budget checks and ranking.
 
 Plain result records and the JSON shape of ``report.json`` (schema
-``nearfar.report/1``, documented in docs/report-schema.md).
+``nearfar.report/2``, documented in docs/report-schema.md).
 """
 from __future__ import annotations
 
+import secrets
 from dataclasses import dataclass, field, asdict
+from datetime import datetime, timezone
 
-SCHEMA = "nearfar.report/1"
+SCHEMA = "nearfar.report/2"
 
 CAUTION = ("Crosstalk figures are engineering estimates from a quasi-static, lossless, weak-coupling model. "
            "Confirm critical nets by measurement or full-wave/circuit simulation, and follow your "
            "organisation's own sign-off practice.")
 
 STATUS_ORDER = {"fail": 0, "warn": 1, "pass": 2}
+
+#: exit status of a scan by verdict (2 bad input and 4 internal error come from the command line)
+EXIT_CODES = {"pass": 0, "fail": 1, "incomplete": 3}
+
+
+def new_run_id() -> str:
+    """An id for one run, named by every file the run writes: 16 random hex digits."""
+    return secrets.token_hex(8)
+
+
+def utc_now() -> str:
+    """The time in UTC, ISO 8601 to the second (``2026-12-02T05:33:09Z``)."""
+    return datetime.now(timezone.utc).strftime("%Y-%m-%dT%H:%M:%SZ")
 
 
 def rounded(x, digits: int = 3) -> float:
@@ -114,23 +129,45 @@ class ScanResult:
     runs: object = None  # scanner.coupling.runs.CoupledRuns, for overlays and waveforms
     piece_coefficients: object = None  # PieceCoefficients aligned with runs.pieces
     summary: dict = field(default_factory=dict)
+    #: what was checked: scanned_trace_fraction, layers[] (name, scanned, reference, reason), ...
+    coverage: dict = field(default_factory=dict)
+    #: reasons part of the board was not checked; any makes the verdict "incomplete" unless it fails
+    unchecked: list[str] = field(default_factory=list)
+    impedance: object = None  # scanner.scoring.impedance.ImpedanceCheck
+    #: this run's id and time, in report.json and named by every other file of the run
+    run_id: str = field(default_factory=new_run_id)
+    created: str = field(default_factory=utc_now)
 
     @property
     def worst_status(self) -> str:
         statuses = [v.status for v in self.victims] + [g.status for g in self.geometric]
+        statuses += [s.status for s in self.impedance.stretches] if self.impedance is not None else []
         for s in ("fail", "warn"):
             if s in statuses:
                 return s
         return "pass"
 
     @property
+    def verdict(self) -> str:
+        """fail (some victim or limit over budget, or a stretch off its impedance target), incomplete (nothing
+        over, but not all checked), pass."""
+        if self.worst_status == "fail":
+            return "fail"
+        return "incomplete" if self.unchecked else "pass"
+
+    @property
     def exit_code(self) -> int:
-        return 1 if self.worst_status == "fail" else 0
+        return EXIT_CODES[self.verdict]
 
     def to_dict(self) -> dict:
         return {
             "schema": SCHEMA,
+            "run_id": self.run_id,
+            "created": self.created,
             "caution": CAUTION,
+            "verdict": self.verdict,
+            "coverage": self.coverage,
+            "unchecked": list(self.unchecked),
             "board": self.board,
             "stackup": self.stackup,
             "rules": self.rules,
@@ -140,4 +177,5 @@ class ScanResult:
             "hotspots": [h.to_dict() for h in self.hotspots],
             "victims": [v.to_dict() for v in self.victims],
             "geometric": [g.to_dict() for g in self.geometric],
+            "impedance": None if self.impedance is None else self.impedance.to_dict(),
         }

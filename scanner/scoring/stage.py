@@ -5,13 +5,17 @@ from dataclasses import dataclass
 
 from scanner.board.layerstack import BoardEnvironments
 from scanner.board.model import Board
+from scanner.board.references import describe_reference
 from scanner.board.roles import NetRoles
+from scanner.coupling.layer_impedance import SignalLayerRow
 from scanner.coupling.stage import RUN_GAP_MM, CoupledSet
 from scanner.rules import Rules
 from scanner.scoring.class_limits import GeometricFinding, check_geometric_limits
+from scanner.scoring.coverage import coverage_and_gaps
 from scanner.scoring.directions import DirectedRuns, directed_runs
 from scanner.scoring.findings import hotspot_records, victim_totals, with_exact_checks
 from scanner.scoring.fixes import fix_guidance
+from scanner.scoring.impedance import ImpedanceCheck
 from scanner.scoring.noise import Noise, listed_rows, score_noise
 from scanner.scoring.results import Hotspot, ScanResult, VictimTotal, rounded
 
@@ -43,14 +47,16 @@ def score_runs(board: Board, rules: Rules, roles: NetRoles, env: BoardEnvironmen
     return Scored(directed, noise, hotspots, victims, geometric)
 
 
-def build_result(board: Board, rules: Rules, env: BoardEnvironments, coupled: CoupledSet, scored: Scored,
-                 warnings: list[str]) -> ScanResult:
+def build_result(board: Board, rules: Rules, roles: NetRoles, env: BoardEnvironments, coupled: CoupledSet,
+                 scored: Scored, warnings: list[str], layer_table: list[SignalLayerRow],
+                 impedance: ImpedanceCheck) -> ScanResult:
     """The scan result (report.json and everything the reports draw) from the stages' outputs."""
     stackup = env.stackup
+    coverage, unchecked = coverage_and_gaps(board, roles, env, coupled)
     return ScanResult(
         board=_board_summary(board),
-        stackup={"source": stackup.source, "layers": [_stack_item(s) for s in stackup.layers],
-                 "signal_layers": {board.layers[i].name: _env_summary(e) for i, e in env.signal.items()}},
+        stackup={"source": stackup.source, "path": stackup.path, "layers": [_stack_item(s) for s in stackup.layers],
+                 "signal_layers": {row.name: _layer_summary(board, env, row) for row in layer_table if row.scanned}},
         rules=rules.to_dict(),
         settings={"search_distance_mm": round(coupled.search_distance_mm, 4),
                   "search_distance_source": coupled.search_distance_source,
@@ -59,12 +65,17 @@ def build_result(board: Board, rules: Rules, env: BoardEnvironments, coupled: Co
                   "run_gap_mm": RUN_GAP_MM,
                   "budget_basis": rules.scan.budget_basis,
                   "differential_aggressor": rules.scan.differential_aggressor,
+                  "search_distance_by_layer_mm": {board.layers[i].name: round(mm, 4)
+                                                  for i, mm in coupled.search_by_layer_mm.items()},
                   "broadside_layer_pairs": [f"{board.layers[a].name}/{board.layers[b].name}" for a, b in env.broadside],
                   "cross_section_solves": coupled.solves},
         hotspots=scored.hotspots, victims=scored.victims, geometric=scored.geometric, warnings=warnings,
         runs=coupled.runs, piece_coefficients=coupled.coefficients,
         summary=_summary(scored.noise, scored.hotspots, scored.victims, coupled.runs, coupled.kept)
         | {"list_floor": rules.scan.list_floor},
+        coverage=coverage,
+        unchecked=unchecked,
+        impedance=impedance,
     )
 
 
@@ -87,9 +98,10 @@ def _stack_item(s) -> dict:
     return {"kind": s.kind, "name": s.name, "thickness_mm": s.thickness_mm, "epsilon_r": s.epsilon_r}
 
 
-def _env_summary(e) -> dict:
-    return {"structure": e.structure, "height_to_plane_mm": rounded(e.height_mm, 4),
-            "trace_thickness_mm": e.trace_thickness_mm}
+def _layer_summary(board: Board, env: BoardEnvironments, row: SignalLayerRow) -> dict:
+    d = row.to_dict()
+    return d | {"height_to_plane_mm": d["height_mm"],
+                "reference": describe_reference(board, env.signal[row.index], env.plane_layers).reference}
 
 
 def _summary(noise: Noise, hotspots, victims, runs, keep) -> dict:

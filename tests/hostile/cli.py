@@ -21,6 +21,7 @@ def assert_one_line_error(err: str, case: Case) -> None:
     text = err[:-1]
     assert text.startswith("nearfar: error: ") and "Traceback" not in text
     assert text.isprintable(), text
+    assert "nearfar-unpack-" not in text, text  # a file in an archive is named archive!entry
     assert case.names in text, text
     assert case.says in text, text
     if case.line is not None:

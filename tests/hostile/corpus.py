@@ -18,6 +18,8 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Callable
 
+from tests.importers_odbpp import jobs
+
 # ---------------------------------------------------------------------------------------- a valid board
 
 TOP_FILE = "board-F_Cu.gbr"
@@ -365,6 +367,22 @@ def old_style_unit_change(tmp):
     return top_case(tmp, "%TO.N,DATA", ["G70*"], "unit changed")
 
 
+@case
+def format_without_digits(tmp):
+    """%FSLAX00Y00*% would read every coordinate at another scale."""
+    return top_case(tmp, "%FSLAX46Y46*%", ["%FSLAX00Y00*%"], "coordinate format 0.0 is not usable", replace=True)
+
+
+@case
+def format_differs_for_x_and_y(tmp):
+    return top_case(tmp, "%FSLAX46Y46*%", ["%FSLAX46Y36*%"], "differs for X", replace=True)
+
+
+@case
+def format_changed_after_coordinates(tmp):
+    return top_case(tmp, "%TO.N,DATA", ["%FSLAX24Y24*%"], "coordinate format changed from 4.6 to 2.4")
+
+
 @recoverable
 def negative_image_polarity(tmp):
     board, _ = top_with(tmp, "%LPD*%", ["%IPNEG*%"])
@@ -456,12 +474,23 @@ def netlist_points_all_off_board(tmp):
     return netlist_case(tmp, lambda ls: [x.replace("X+0", "X+9") for x in ls], "units", None)
 
 
+@case
+def netlist_units_changed_after_records(tmp):
+    """A second P UNITS after the first record: the rest of the file would be read at another scale."""
+    return netlist_case(tmp, lambda ls: ls[:4] + ["P  UNITS CUST 0"] + ls[4:], "units changed to 'CUST 0'", 5)
+
+
 # ---------------------------------------------------------------------------------------- drill files
 
 
 def drill_case(tmp, lines: list[str], says: str, line: int | None) -> Recoverable:
     """A damaged drill file: the board loads without it (incomplete), with a warning naming the file and line."""
     return Recoverable(board_with(tmp, DRILL_FILE, lines), DRILL_FILE if line is None else f"{DRILL_FILE}:{line}", says)
+
+
+def drill_refused(tmp, lines: list[str], says: str, line: int | None) -> Case:
+    """A drill file that means two things, or another board's: refused with one line."""
+    return Case(board_with(tmp, DRILL_FILE, lines), DRILL_FILE, says, line)
 
 
 @recoverable
@@ -494,6 +523,36 @@ def drill_absurd_coordinate(tmp):
 def drill_absurd_tool(tmp):
     lines = [line.replace("T1C0.300", "T1C99999999.0") for line in drill_lines()]
     return drill_case(tmp, lines, "tool diameter", index_of(lines, "X") + 1)
+
+
+@case
+def drill_inch_after_metric_holes(tmp):
+    lines = drill_lines()
+    lines.insert(index_of(lines, "X") + 1, "INCH")
+    return drill_refused(tmp, lines, "unit changed from millimeter to inch after coordinates", index_of(lines, "INCH") + 1)
+
+
+@case
+def drill_m72_after_metric_holes(tmp):
+    lines = drill_lines()
+    lines.insert(index_of(lines, "X") + 1, "M72")
+    return drill_refused(tmp, lines, "unit changed from millimeter to inch after coordinates", index_of(lines, "M72") + 1)
+
+
+@case
+def drill_holes_all_off_board(tmp):
+    """Holes in the wrong units land far from the board: refused, not scored as opens."""
+    return drill_refused(tmp, [line.replace("X40.000", "X1016.000") for line in drill_lines()], "units", None)
+
+
+@case
+def drill_unit_change_inside_an_archive(tmp):
+    """Errors about a file in an archive name it as archive!entry, with its line."""
+    lines = drill_lines()
+    lines.insert(index_of(lines, "X") + 1, "INCH")
+    board = board_with(tmp, DRILL_FILE, lines)
+    return Case(zip_of(board, tmp / "board.zip"), f"board.zip!{DRILL_FILE}", "unit changed",
+                index_of(lines, "INCH") + 1)
 
 
 # ---------------------------------------------------------------------------------------- job files
@@ -690,6 +749,41 @@ def archive_without_copper(tmp):
     return Case(zip_of(board, tmp / "nocopper.zip"), "nocopper.zip", "no copper layers")
 
 
+# ---------------------------------------------------------------------------------------- ODB++ jobs
+
+
+def odbpp_case(tmp, layer: str, text: str, says: str, line: int | None) -> Case:
+    """The small ODB++ test job with one layer's features file replaced by ``text``."""
+    job = jobs.write_job(tmp, jobs.job_files(**{f"steps__pcb__layers__{layer}__features": text}))
+    return Case(job, f"layers/{layer}/features", says, line)
+
+
+@case
+def odbpp_two_jobs_in_one_archive(tmp):
+    """The refusal names the archive, not the folder it was unpacked into."""
+    first, second = jobs.write_job(tmp / "a"), jobs.write_job(tmp / "b")
+    path = tmp / "two.zip"
+    with zipfile.ZipFile(path, "w") as zf:
+        for prefix, job in (("one", first), ("two", second)):
+            for f in sorted(job.rglob("*")):
+                if f.is_file():
+                    zf.write(f, f"{prefix}/{f.relative_to(job).as_posix()}")
+    return Case(path, "two.zip", "expected one ODB++ job, found 2")
+
+
+@case
+def odbpp_units_changed_mid_features(tmp):
+    text = jobs.TOP.replace("P 35 20 2 P 0 0", "UNITS=INCH\nP 35 20 2 P 0 0")
+    return odbpp_case(tmp, "top", text, "units changed from MM to INCH", text.splitlines().index("UNITS=INCH") + 1)
+
+
+@case
+def odbpp_copper_far_off_board(tmp):
+    """Coordinates of a metric layer read as inches: all of the layer lies far outside the step profile."""
+    return odbpp_case(tmp, "top", jobs.TOP.replace("UNITS=MM", "UNITS=INCH"), "copper objects of layer L01 lie off",
+                      None)
+
+
 # ---------------------------------------------------------------------------------------- links and names
 
 
@@ -744,7 +838,9 @@ def garbage_silkscreen(tmp):
 
 @recoverable
 def netlist_point_off_board(tmp):
+    """One point of 15 off the board: a warning (more than a small share would make the import incomplete)."""
     lines = netlist_lines()
+    lines[-1:-1] = [netlist_point(327, "CLK", 2 + i, 10, 1) for i in range(10)]
     lines.insert(-1, netlist_point(327, "DATA", 940, 10.3, 1))
     return Recoverable(board_with(tmp, NETLIST_FILE, lines, x2=False), NETLIST_FILE, f"line {len(lines) - 1}")
 

@@ -104,3 +104,15 @@ def test_errors_survive_parallel_parsing(tmp_path, capsys, monkeypatch):
     monkeypatch.setenv("NEARFAR_IMPORT_WORKERS", "2")
     code, _, err = _main(["inspect", str(folder)], capsys)
     assert code == 2 and "board-top.gbr:" in err and "truncated" in err
+
+
+def test_each_layer_shows_its_reference(tmp_path, capsys):
+    # two signal layers, no plane: each is referenced to the other side of the board (L02 carries a pour)
+    folder = write_board(tmp_path, x2=False)
+    code, out, _ = _main(["inspect", str(folder), "--json"], capsys)
+    layers = json.loads(out)["layers"]
+    assert code == 0
+    assert layers[0]["reference"].startswith("microstrip over L02 pour, ")
+    assert "coupling is stronger than over a plane" in layers[0]["reference_evidence"]
+    code, out, _ = _main(["inspect", str(folder)], capsys)
+    assert "  L02: microstrip over the far side (L01), " in out

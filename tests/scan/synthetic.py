@@ -1,5 +1,6 @@
-"""Small boards built in code for scan tests: a 4-layer build with planted runs."""
+"""Small boards built in code for scan tests: a 4-layer build with planted runs, and 2-layer boards."""
 import numpy as np
+import shapely
 
 from scanner.board.model import (Board, CopperLayer, CopperShapes, Holes, Stackup, StackupLayer, TraceSegments)
 
@@ -45,3 +46,26 @@ def board_from(traces_by_layer: dict[int, list[tuple]], nets: list[str], stackup
         layers.append(CopperLayer(f"L{i + 1}", i, "top" if i == 0 else "inner" if i < 3 else "bottom", kind,
                                   "test", None, seg, CopperShapes.empty()))
     return Board("synthetic", "memory", "test", layers, nets, Holes.empty(), stackup or four_layer_stackup())
+
+
+def two_layer_stackup(mask: bool = True, copper_mm: float = 0.035) -> Stackup:
+    """A plain 1.6 mm two-layer build: 1.53 mm of er 4.5 laminate between the copper sides."""
+    masks = [("mask", 0.02, 3.8)] if mask else []
+    return stackup_of(*masks, copper_mm, (1.53, 4.5), copper_mm, *masks)
+
+
+def two_layer_board(traces_by_layer: dict[int, list[tuple]], nets: list[str], pour: tuple | None = None,
+                    kinds=("signal", "signal"), stackup=None) -> Board:
+    """Top (0) and bottom (1) copper, no plane unless ``kinds`` says so. ``pour``: (layer, net, (x0, y0, x1, y1),
+    fill ratio) a rectangular pour drawn as a region, and the share of the board it covers."""
+    layers = []
+    for i, kind in enumerate(kinds):
+        rows = traces_by_layer.get(i, [])
+        seg = TraceSegments(*np.array(rows, dtype=float).T) if rows else TraceSegments.empty()
+        shapes, fill = CopperShapes.empty(), 0.0
+        if pour is not None and pour[0] == i:
+            shapes = CopperShapes(np.array([shapely.box(*pour[2])], dtype=object), np.array([pour[1]]),
+                                  np.array(["region"], dtype=object))
+            fill = pour[3]
+        layers.append(CopperLayer(f"L{i + 1}", i, ("top", "bottom")[i], kind, "test", None, seg, shapes, fill))
+    return Board("two-layer", "memory", "test", layers, nets, Holes.empty(), stackup or two_layer_stackup())

@@ -72,7 +72,7 @@ def test_ranking_puts_failures_first(result):
 
 def test_report_json_shape(result):
     d = result.to_dict()
-    assert d["schema"] == "nearfar.report/1"
+    assert d["schema"] == "nearfar.report/2"
     for key in ("rank", "victim", "aggressor", "layer", "coupled_length_mm", "min_spacing_mm", "mean_spacing_mm",
                 "x_mm", "y_mm", "next_pct", "fext_pct", "next_mv", "fext_mv", "status"):
         assert key in d["hotspots"][0]

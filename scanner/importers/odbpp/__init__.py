@@ -7,7 +7,6 @@ folder holding a ``matrix/matrix`` file. :func:`load_odbpp` reads a job folder o
 from __future__ import annotations
 
 import re
-import tempfile
 from pathlib import Path
 
 from scanner.board.model import Board
@@ -17,7 +16,8 @@ from scanner.importers.odbpp.archive import extract_job_archive, is_job_archive
 from scanner.importers.odbpp.job import open_job
 from scanner.importers.odbpp.reader import FORMAT, KIND_SOURCE, NETTING_METHOD, read_job
 from scanner.importers.odbpp.text import JobFile
-from scanner.importers.sources import SourceFile, list_sources
+from scanner.importers.sources import SourceFile, folder_name, list_sources
+from scanner.workspace import unpack_folder
 
 __all__ = ["OdbppImporter", "load_odbpp", "FORMAT", "KIND_SOURCE", "NETTING_METHOD"]
 
@@ -60,7 +60,7 @@ class OdbppImporter:
         jobs = _job_prefixes(files)
         if len(jobs) != 1:
             raise InputError(f"expected one ODB++ job, found {len(jobs)}"
-                             + (f" ({', '.join(p or '.' for p in jobs)})" if jobs else ""), path=str(root))
+                             + (f" ({', '.join(p or '.' for p in jobs)})" if jobs else ""), path=folder_name(files))
         prefix, sample = next(iter(jobs.items()))
         display = sample.name[: len(sample.name) - len(sample.rel)] + prefix
         job_root = JobFile(root / prefix if prefix else root, display)
@@ -78,9 +78,9 @@ def load_odbpp(path, step: str | None = None) -> Board:
     elif not is_job_archive(path):
         raise InputError("expected an ODB++ job folder or a .tgz, .tar.gz, .tar or .zip archive", path=path)
     else:
-        with tempfile.TemporaryDirectory(prefix="nearfar-") as tmp:
-            extract_job_archive(path, Path(tmp))
-            board = OdbppImporter(step).load(Path(tmp), list_sources(Path(tmp), f"{path.name}!"))
+        with unpack_folder() as tmp:
+            extract_job_archive(path, tmp)
+            board = OdbppImporter(step).load(tmp, list_sources(tmp, f"{path.name}!"))
     board.source = str(path)
     board.name = path.name
     return board

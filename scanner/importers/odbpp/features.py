@@ -143,9 +143,9 @@ class _Parser:
 
     def header_record(self, head: str, t: list[str], n: int) -> None:
         if head.upper().startswith("UNITS") and "=" in " ".join(t):
-            self.units = units_word(" ".join(t).partition("=")[2], self.src, n)
+            self.set_units(units_word(" ".join(t).partition("=")[2], self.src, n), n)
         elif head == "U" and len(t) == 2:
-            self.units = units_word(t[1], self.src, n)
+            self.set_units(units_word(t[1], self.src, n), n)
         elif head == "F" and len(t) == 2:
             self.declared = integer(t[1], self.src, n, "feature count")
         elif head.startswith("$"):
@@ -158,6 +158,14 @@ class _Parser:
             self.attribute_names[integer(head[1:], self.src, n, "attribute number")] = t[1] if len(t) > 1 else ""
         elif not (head.startswith("&") or head.upper().startswith("ID=")):
             self.log.add(f"record {head!r} not understood; skipped", n)
+
+    def set_units(self, units: str, n: int) -> None:
+        """The file's units; a change after the first feature is refused (one file, one scale)."""
+        current = self.units or self.default_units
+        if self.positive and current is not None and units != current:
+            self.fail(f"units changed from {current} to {units} after features were read; one file may not use "
+                      "two scales", n)
+        self.units = units
 
     def line(self, t: list[str], n: int, attrs: str) -> None:
         f = self.feature(t[6], n, attrs)

@@ -6,6 +6,7 @@ import shapely
 
 from scanner.board.model import NO_NET, Board, CopperLayer, CopperShapes, Holes, TraceSegments
 from scanner.errors import InputError
+from scanner.importers.extent import check_copper_on_board, check_holes_on_board, check_netting
 from scanner.importers.odbpp.copper import LayerArtwork, feature_image, layer_artwork
 from scanner.importers.odbpp.drills import drill_holes
 from scanner.importers.odbpp.eda import EdaNets, nets_for_layer, read_eda
@@ -47,6 +48,11 @@ def read_job(job: Job, planes: tuple[list[str], str] | None) -> Board:
     drill_tables = [(layer, parse_features(job.layer_file(layer.name, "features"), job.units, library,
                                            keep_attributes=True)) for layer in job.matrix.of_type("DRILL")]
     holes = [drill_holes(table, layer.name) for layer, table in drill_tables]
+    incomplete: list[str] = []
+    for layer in layers:
+        check_copper_on_board(warnings, incomplete, layer, outline)
+    for (_, table), part in zip(drill_tables, holes):
+        check_holes_on_board(warnings, incomplete, part.x, part.y, table.src.name, layers, outline)
     hints = [(COPPER_KINDS[layer.type], KIND_SOURCE) for layer in copper]
     classify_planes(layers, hints, _plane_indices(planes, copper, layers), outline)
     stackup, stack_warnings = read_stackup(job.matrix, job.layer_file)
@@ -54,8 +60,11 @@ def read_job(job: Job, planes: tuple[list[str], str] | None) -> Board:
         if (summary := table.log.summary()):
             warnings.append(summary)
     board = Board(name=job.name, source=job.root.name.rstrip("/!"), format=FORMAT, layers=layers, nets=net_names,
-                  holes=_concat_holes(holes), stackup=stackup, outline=outline, warnings=warnings + stack_warnings)
-    return assign_nets(board, named_source=NETTING_METHOD)
+                  holes=_concat_holes(holes), stackup=stackup, outline=outline, warnings=warnings + stack_warnings,
+                  incomplete=incomplete)
+    assign_nets(board, named_source=NETTING_METHOD)
+    check_netting(board, names_promised=None if eda is None else f"the EDA data ({eda_src.name})")
+    return board
 
 
 def _artwork(job: Job, layer: MatrixLayer, table: FeatureTable, eda: EdaNets | None, outline,

@@ -20,11 +20,7 @@ from scanner.board.model import Stackup, StackupLayer
 from scanner.errors import InputError
 from scanner.importers.odbpp.matrix import Matrix, MatrixLayer
 from scanner.importers.odbpp.text import JobFile, read_structured
-from scanner.units import mil_to_mm
-
-#: copper thickness per oz/ft² of copper weight: 1.35 mil, the figure fabrication tools commonly use
-#: to turn ``.copper_weight`` into a thickness (common practice; pure copper would give 1.34 mil)
-MM_PER_OZ_COPPER = mil_to_mm(1.35)
+from scanner.units import MM_PER_OZ_COPPER
 
 STACKUP_SOURCE = "odbpp-job"
 
