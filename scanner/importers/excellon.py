@@ -266,7 +266,9 @@ def _differs(a: _DrillParser, b: _DrillParser) -> bool:
 def _hole_centres_mm(drills: _DrillParser) -> tuple[np.ndarray, np.ndarray]:
     flashes = [o for o in drills.objects if isinstance(o, go.Flash)]
     scale = np.array([(o.unit or drills.settings.unit or MM).convert_to(MM, 1.0) for o in flashes])
-    return (np.array([o.x for o in flashes], dtype=float) * scale, np.array([o.y for o in flashes], dtype=float) * scale)
+    x = np.array([o.x for o in flashes], dtype=float)
+    y = np.array([o.y for o in flashes], dtype=float)
+    return x * scale, y * scale
 
 
 def _drill_file(path: Path, text: str, drills: _DrillParser, plated: bool | None, plated_source: str | None,

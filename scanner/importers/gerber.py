@@ -285,8 +285,8 @@ def _holes(files, by_rel, cfg: BoardFile | None, job: JobFile | None, layers: li
             warnings.append(f"{src.name}: {drill.assumed}")
     if not named:
         return Holes.empty(), logs, named
-    return (Holes(*(np.concatenate([getattr(h, k) for _, h in named]) for k in ("x", "y", "diameter", "plated", "net"))),
-            logs, named)
+    fields = ("x", "y", "diameter", "plated", "net")
+    return Holes(*(np.concatenate([getattr(h, k) for _, h in named]) for k in fields)), logs, named
 
 
 def _without_drills(has_netlist: bool) -> str:

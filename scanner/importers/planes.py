@@ -71,7 +71,8 @@ def classify_planes(layers: list[CopperLayer], hints: list[tuple[str | None, str
             measured += f"; {notes[k]}"
         if board_planes is not None:
             layer.kind, layer.kind_source = ("plane" if layer.index in board_planes else "signal"), "board-file"
-            layer.kind_evidence = f"listed {'as a plane' if layer.kind == 'plane' else 'not as a plane'} in the board file"
+            listed = "as a plane" if layer.kind == "plane" else "not as a plane"
+            layer.kind_evidence = f"listed {listed} in the board file"
         elif hint is not None:
             layer.kind, layer.kind_source = hint, source
             layer.kind_evidence = f"{hint} by {source}; {measured}"

@@ -124,5 +124,6 @@ def negative_to_pour(layer: CopperLayer, board_area) -> CopperLayer:
     parts = shapely.get_parts(copper)
     parts = parts[shapely.area(parts) > 0]
     layer.segments = TraceSegments.empty()
-    layer.shapes = CopperShapes(parts, np.full(len(parts), NO_NET, dtype=np.int32), np.full(len(parts), "region", dtype=object))
+    layer.shapes = CopperShapes(parts, np.full(len(parts), NO_NET, dtype=np.int32),
+                                np.full(len(parts), "region", dtype=object))
     return layer

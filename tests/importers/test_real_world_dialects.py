@@ -123,6 +123,18 @@ def test_header_names_the_layer():
     assert header_names("%IN18=Solderstopmasktop*%\n").guess().role == "other"
 
 
+def test_gerbonara_second_opinion(tmp_path):
+    """gerbonara's own file-name rules (here its rules for one design tool's three-letter endings)."""
+    from scanner.importers.layer_names import gerbonara_guesses
+    paths = []
+    for name in ("b.gtl", "b.g2", "b.gbl", "b.gts", "b.gto", "b.gko"):
+        paths.append(tmp_path / name)
+        paths[-1].write_text(gerber_text(_pads([(5, 5)]), x2=False))
+    guesses = gerbonara_guesses(paths)
+    assert [(guesses[p].role, guesses[p].number) for p in paths[:3]] == [("top", None), ("inner", 2), ("bottom", None)]
+    assert {guesses[p].role for p in paths[3:]} == {"other"}
+
+
 def test_copper_in_subfolders_by_name_and_board_file_paths(tmp_path):
     gerber = tmp_path / "Gerber files"
     gerber.mkdir()
