@@ -21,7 +21,7 @@ DEBUG_VARIABLE = "NEARFAR_DEBUG"
 _debug = {"on": False}
 
 #: subcommands, each a module in scanner.commands exposing a click command named ``command``
-COMMAND_MODULES = ("inspect", "section", "scan", "stackup")
+COMMAND_MODULES = ("inspect", "section", "scan", "stackup", "compare", "waive")
 
 
 @click.group(context_settings={"help_option_names": ["-h", "--help"]})

@@ -14,6 +14,7 @@ import ctypes
 import errno
 import os
 import shutil
+import tempfile
 from pathlib import Path
 
 from scanner.errors import InputError
@@ -42,6 +43,26 @@ def write_file(path: Path, data: str | bytes) -> Path:
     except OSError as exc:
         if exc.filename is None:  # a failed write() or fsync() names no file
             raise OSError(exc.errno, exc.strerror, str(path)) from exc
+        raise
+    return path
+
+
+def replace_file(path: str | Path, data: str | bytes) -> Path:
+    """Write one file whole or not at all: into a temporary file beside it, then renamed over it."""
+    path = Path(path)
+    try:
+        fd, temp = tempfile.mkstemp(prefix=f".{path.name[:NAME_KEPT]}.", suffix=".part", dir=path.parent)
+    except OSError as exc:  # it would name the temporary file, which the user never asked for
+        raise OSError(exc.errno, exc.strerror, str(path)) from exc
+    os.close(fd)
+    try:
+        write_file(Path(temp), data)
+        os.replace(temp, path)
+    except OSError as exc:
+        Path(temp).unlink(missing_ok=True)
+        raise OSError(exc.errno, exc.strerror, str(path)) from exc
+    except BaseException:
+        Path(temp).unlink(missing_ok=True)
         raise
     return path
 

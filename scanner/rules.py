@@ -6,8 +6,6 @@ apply, and they are printed at the top of every report.
 """
 from __future__ import annotations
 
-import re
-import tomllib
 import dataclasses
 from dataclasses import dataclass, field, asdict
 from pathlib import Path
@@ -16,8 +14,9 @@ import numpy as np
 
 from scanner.board.model import Stackup, StackupLayer
 from scanner.errors import InputError, printable
-from scanner.input_limits import read_input
 from scanner.patterns import compile_patterns
+from scanner.signoff.waivers import Waiver, parse_waivers
+from scanner.toml_input import read_toml
 
 TERMINATIONS = ("matched", "high-z-receiver")
 DIFF_AGGRESSOR_MODELS = ("two-lines", "odd-mode")
@@ -140,6 +139,7 @@ class Rules:
     stackup: Stackup | None = None
     planes: tuple[str, ...] = ()  # copper layer names forced to plane
     class_pairs: tuple[ClassPairRule, ...] = ()
+    waivers: tuple[Waiver, ...] = ()  # accepted risks: from [[waiver]] here and from a waivers file
     source: str = "defaults"
 
     def pair_rule(self, aggressor_class: str, victim_class: str) -> ClassPairRule | None:
@@ -193,31 +193,14 @@ _PAIR_KEYS = {
     "aggressor_class": str, "victim_class": str, "next_budget_pct": float, "fext_budget_pct": float,
     "next_budget_mv": float, "fext_budget_mv": float, "max_parallel_mm": float, "within_spacing_mm": float,
 }
-_TOP_KEYS = {"scan", "class", "power", "diff_pair", "stackup", "planes", "class_pair"}
+_TOP_KEYS = {"scan", "class", "power", "diff_pair", "stackup", "planes", "class_pair", "waiver"}
 
 
 def load_rules(path: str | Path | None) -> Rules:
     """Read a rules file; ``None`` gives the defaults."""
     if path is None:
         return Rules()
-    path = Path(path)
-    if not path.exists():
-        raise InputError("rules file not found", path)
-    try:
-        text = read_input(path, str(path), "rules file").decode("utf-8")
-    except UnicodeDecodeError as exc:
-        raise InputError(f"rules file is not UTF-8 text (byte {exc.start})", path) from None
-    try:
-        doc = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        line = getattr(exc, "lineno", None) or _toml_line(str(exc))
-        raise InputError(f"not valid TOML: {str(exc).split(' (at')[0]}", path, line) from None
-    return parse_rules(doc, printable(str(path)))
-
-
-def _toml_line(msg: str):
-    m = re.search(r"line (\d+)", msg)
-    return int(m.group(1)) if m else None
+    return parse_rules(read_toml(path, "rules file"), printable(str(path)))
 
 
 def parse_rules(doc: dict, source: str) -> Rules:
@@ -317,7 +300,8 @@ def parse_rules(doc: dict, source: str) -> Rules:
     class_pairs = _parse_class_pairs(doc.get("class_pair", []), set(names) | {DEFAULT_CLASS.name}, bad)
 
     return Rules(classes=tuple(classes), power_patterns=power_patterns, diff_pairs=tuple(pairs), scan=scan,
-                 stackup=stackup, planes=tuple(planes), class_pairs=class_pairs, source=source)
+                 stackup=stackup, planes=tuple(planes), class_pairs=class_pairs,
+                 waivers=parse_waivers(doc.get("waiver", []), source), source=source)
 
 
 def parse_stackup_table(raw, source: str) -> Stackup:

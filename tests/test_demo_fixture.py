@@ -16,16 +16,22 @@ from pathlib import Path
 
 import pytest
 import shapely
-from gerbonara import ExcellonFile, GerberFile, LayerStack
+from gerbonara import ExcellonFile, GerberFile
 from gerbonara.apertures import CircleAperture, RectangleAperture
 from gerbonara.graphic_objects import Arc, Flash, Line, Region
 from gerbonara.ipc356 import Netlist
 from shapely.geometry import LineString, Point, Polygon, box
 
+from scanner import load_board
+from scanner.importers.layer_order import guess_from_name
+from scanner.importers.sources import list_sources
+
 ROOT = Path(__file__).resolve().parents[1]
 FIXTURE = ROOT / "fixtures" / "demo-board"
 NAME = "ml6-logger"
-COPPER = [f"{NAME}-{s}.gbr" for s in ("F_Cu", "In1_Cu", "In2_Cu", "In3_Cu", "In4_Cu", "B_Cu")]
+COPPER = [f"{NAME}-c{n}.gbr" for n in range(1, 7)]
+PROFILE = f"{NAME}-outline.gbr"
+DRILLS = {"plated": f"{NAME}-plated.drl", "unplated": f"{NAME}-unplated.drl"}
 FILE_FUNCTIONS = ["Copper,L1,Top,Signal", "Copper,L2,Inr,Plane", "Copper,L3,Inr,Signal",
                   "Copper,L4,Inr,Plane", "Copper,L5,Inr,Plane", "Copper,L6,Bot,Signal"]
 #: smallest copper gap drawn on purpose (the differential pairs), mm
@@ -159,7 +165,7 @@ def test_x2_file_attributes():
         text = (FIXTURE / "x2" / name).read_text()
         assert f"%TF.FileFunction,{function}*%" in text
         assert "%TF.GenerationSoftware," in text
-    assert "%TF.FileFunction,Profile,NP*%" in (FIXTURE / "x2" / f"{NAME}-Edge_Cuts.gbr").read_text()
+    assert "%TF.FileFunction,Profile,NP*%" in (FIXTURE / "x2" / PROFILE).read_text()
 
 
 def test_x2_every_aperture_has_a_function_and_every_dark_object_a_net():
@@ -195,27 +201,35 @@ def test_every_gerber_reads_cleanly_with_gerbonara():
 
 
 def test_arc_run_uses_circular_interpolation():
-    text = (FIXTURE / "x2" / f"{NAME}-B_Cu.gbr").read_text()
+    text = (FIXTURE / "x2" / COPPER[5]).read_text()
     assert "G75*" in text and text.count("G02*") == 2  # Gerber spec: G75 multi-quadrant, G02 clockwise
-    arcs = [o for o in _strict(GerberFile.open, FIXTURE / "x2" / f"{NAME}-B_Cu.gbr").objects if isinstance(o, Arc)]
+    arcs = [o for o in _strict(GerberFile.open, FIXTURE / "x2" / COPPER[5]).objects if isinstance(o, Arc)]
     assert sorted(round(abs(o.cy), 6) for o in arcs) == [5.0, 5.5]
 
 
-def test_layer_stack_finds_six_copper_layers_in_order():
+def test_layer_order_comes_from_attributes_and_the_board_file_not_the_names():
+    """The file names are our own and carry no stack order: x2/ is ordered by its X2 .FileFunction attributes
+    and job file, x1/ by nearfar-board.toml."""
     for folder in ("x1", "x2"):
-        stack = _strict(LayerStack.open, FIXTURE / folder)
-        assert [layer.original_path.name for _, layer in stack.copper_layers] == COPPER
+        sources = list_sources(FIXTURE / folder)
+        assert not [s.path.name for s in sources if guess_from_name(s.path.name)]
+        board = load_board(FIXTURE / folder)
+        assert [layer.name for layer in board.layers] == [f"L{n:02d}" for n in range(1, 7)]
+        assert [layer.kind for layer in board.layers] == ["signal", "plane", "signal", "plane", "plane", "signal"]
+        assert board.name == NAME and board.outline is not None
+    job = json.loads((FIXTURE / "x2" / f"{NAME}.gbrjob").read_text())
+    assert [f["Path"] for f in job["FilesAttributes"] if f["FileFunction"].startswith("Copper")] == COPPER
 
 
 # ------------------------------------------------------------ drills, netlist, job file, TOML
 
 def test_drills_read_cleanly_and_agree_between_sets():
-    for kind, count in (("PTH", None), ("NPTH", 4)):
-        x1 = (FIXTURE / "x1" / f"{NAME}-{kind}.drl").read_bytes()
-        assert x1 == (FIXTURE / "x2" / f"{NAME}-{kind}.drl").read_bytes()
-        drills = _strict(ExcellonFile.open, FIXTURE / "x1" / f"{NAME}-{kind}.drl")
+    for kind, count in (("plated", None), ("unplated", 4)):
+        x1 = (FIXTURE / "x1" / DRILLS[kind]).read_bytes()
+        assert x1 == (FIXTURE / "x2" / DRILLS[kind]).read_bytes()
+        drills = _strict(ExcellonFile.open, FIXTURE / "x1" / DRILLS[kind])
         assert count is None or len(drills.objects) == count
-    text = (FIXTURE / "x1" / f"{NAME}-PTH.drl").read_text()
+    text = (FIXTURE / "x1" / DRILLS["plated"]).read_text()
     assert "; #@! TF.FileFunction,Plated,1,6,PTH" in text
 
 
@@ -245,7 +259,7 @@ def test_ipc_points_match_holes_and_pads(copper):
     netlist = _strict(Netlist.open, FIXTURE / "x1" / f"{NAME}.ipc")
     through = sorted((round(r.x, 3), round(r.y, 3), round(r.hole_dia, 3)) for r in netlist.test_records
                      if r.pad_type.value == 1)
-    drills = _strict(ExcellonFile.open, FIXTURE / "x1" / f"{NAME}-PTH.drl")
+    drills = _strict(ExcellonFile.open, FIXTURE / "x1" / DRILLS["plated"])
     assert through == sorted((round(o.x, 3), round(o.y, 3), round(o.tool.diameter, 3)) for o in drills.objects)
     surface = sorted((round(r.x, 3), round(r.y, 3), r.net_name, r.access_layer) for r in netlist.test_records
                      if r.pad_type.value == 2)

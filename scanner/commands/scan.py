@@ -11,11 +11,14 @@ import click
 from scanner import load_board, scan
 from scanner.commands.options import stackup_option, stackup_override
 from scanner.errors import InputError
-from scanner.outputs import check_output_folder
+from scanner.outputs import check_output_folder, replace_file
 from scanner.report.files import report_json
 from scanner.report.folder import write_report_folder
 from scanner.report.text import render
-from scanner.rules import load_rules
+from scanner.signoff.compare import compare_reports
+from scanner.signoff.junit import junit_xml
+from scanner.signoff.records import read_report
+from scanner.signoff.rules_input import rules_with_waivers
 
 
 @click.command("scan")
@@ -31,8 +34,15 @@ from scanner.rules import load_rules
               help="Hotspots listed on the terminal.")
 @click.option("--json", "as_json", is_flag=True, help="Print report.json to standard output instead of the table.")
 @click.option("--no-images", is_flag=True, help="Skip overlay images, waveform plots and the report page.")
+@click.option("--waivers", "waivers_path", type=click.Path(path_type=Path, dir_okay=False), default=None,
+              help="Waivers file (TOML, [[waiver]] tables): accepted risks, added to any in the rules file.")
+@click.option("--baseline", "baseline_dir", type=click.Path(path_type=Path), default=None,
+              help="Report folder of an earlier scan: list what got fixed, new, worse or better since then.")
+@click.option("--junit", "junit_path", type=click.Path(path_type=Path, dir_okay=False), default=None,
+              help="Also write the result as JUnit XML (one test case per victim) for CI systems.")
 @click.option("--step", default=None, metavar="NAME", help="The step of an ODB++ job to read, when it has several.")
-def command(board, rules_path, board_file, stackup_path, out_dir, top, as_json, no_images, step):
+def command(board, rules_path, board_file, stackup_path, out_dir, top, as_json, no_images, waivers_path, baseline_dir,
+            junit_path, step):
     """Find parallel runs between nets on BOARD (a folder or .zip of Gerber, drill and netlist files, or an
     ODB++ job folder or .tgz), predict NEXT and FEXT on every victim, check the net-class budgets and rank
     the hotspots.
@@ -44,7 +54,7 @@ def command(board, rules_path, board_file, stackup_path, out_dir, top, as_json, 
     \b
     Exit status:
       0  pass: the whole board checked, every victim within budget
-      1  fail: some victim over budget, or a geometric limit broken
+      1  fail: some victim over budget, or a geometric limit broken (waived findings excepted)
       2  bad input (one line naming the file)
       3  incomplete: nothing over budget, but part of the board was not checked
          (a layer skipped by the rules, trace without a net, an import gap)
@@ -60,18 +70,25 @@ def command(board, rules_path, board_file, stackup_path, out_dir, top, as_json, 
     if out_dir is not None and board.is_dir() and out_dir.resolve() == board.resolve():
         raise InputError("the output folder is the board folder: reports could overwrite input files "
                          "(give a separate folder, or a subfolder)", path=out_dir)
+    if junit_path is not None and not junit_path.parent.is_dir():
+        raise InputError("the folder for the JUnit file does not exist", path=junit_path)
     if out_dir is not None:
         check_output_folder(out_dir)  # before the long part: a folder that cannot be written stops the run now
-    rules = load_rules(rules_path)
+    rules = rules_with_waivers(rules_path, waivers_path)
     rules = dataclasses.replace(rules, stackup=stackup_override(stackup_path, rules.stackup))
+    baseline = read_report(baseline_dir) if baseline_dir is not None else None
     progress(f"reading {board}")
     the_board = load_board(board, board_file=board_file, step=step)
     result = scan(the_board, rules, progress=progress)
+    if baseline is not None:
+        result.comparison = compare_reports(baseline, result.to_dict(), str(baseline_dir), "this scan")
 
     report = report_json(result)  # every value checked before anything is written or printed
     if out_dir is not None:
         progress(f"writing reports to {out_dir}")
         write_report_folder(result, the_board, out_dir, images=not no_images)
+    if junit_path is not None:
+        replace_file(junit_path, junit_xml(result, time.perf_counter() - started))
     if as_json:
         click.echo(report, nl=False)
     else:

@@ -2,6 +2,7 @@
 from __future__ import annotations
 
 import json
+from pathlib import Path
 
 import click
 import numpy as np
@@ -14,6 +15,8 @@ from scanner.physics import (WEAK_COUPLING_LIMIT, Soldermask, coupling_coefficie
 from scanner.units import M_PER_MM, S_PER_NS
 
 _POSITIVE = click.FloatRange(min=0, min_open=True)
+PLOT_FORMATS = (".png", ".svg", ".pdf")
+PLOT_DPI = 150
 
 
 def _gaps(widths, spacings):
@@ -180,13 +183,16 @@ def render_section(data: dict) -> str:
 @click.option("--plane-layers", help="With --stackup: the copper layers that are planes, comma-separated (default: "
                                      "every copper layer but --layer, so its neighbours are its references).")
 @click.option("--json", "as_json", is_flag=True, help="Print the figures as JSON.")
+@click.option("--plot", "plot_path", type=click.Path(dir_okay=False, writable=True),
+              help="Also draw the cross-section to scale into this file (.png, .svg or .pdf).")
 @click.pass_context
 def command(ctx, widths, spacings, copper, height_below, er_below, height_above, er_above, planes, mask, mask_er,
-            aggressor, victim, rise_time_ns, length_mm, swing_v, receiver, stackup_path, layer, plane_layers, as_json):
+            aggressor, victim, rise_time_ns, length_mm, swing_v, receiver, stackup_path, layer, plane_layers, as_json,
+            plot_path):
     """Solve one cross-section: L and C matrices, impedances, Kb and Kf, and NEXT/FEXT for a coupled length.
 
     Describe the layer by hand (--height-below and the options after it), or take it from a stackup file
-    (--stackup FILE --layer NAME)."""
+    (--stackup FILE --layer NAME). --plot draws the cross-section to scale."""
     where = None
     if stackup_path is not None:
         section, where = _from_stackup(ctx, stackup_path, layer, plane_layers, widths, spacings)
@@ -200,7 +206,26 @@ def command(ctx, widths, spacings, copper, height_below, er_below, height_above,
         raise click.UsageError(f"--aggressor and --victim must be two different traces among 0..{count - 1}")
     if length_mm is not None and rise_time_ns is None:
         raise click.UsageError("--length needs --rise-time")
+    if plot_path is not None and Path(plot_path).suffix.lower() not in PLOT_FORMATS:
+        raise click.UsageError(f"--plot: give a file name ending in {', '.join(PLOT_FORMATS)}")
     data = section_data(section, aggressor, victim, rise_time_ns, length_mm, swing_v, receiver)
     if where is not None:
         data["layer"] = where
+    if plot_path is not None:
+        _plot(section, data, Path(plot_path))
     click.echo(json.dumps(data, indent=2) if as_json else render_section(data))
+
+
+def _plot(section, data: dict, path: Path) -> None:
+    """The sketch of ``section`` with its impedance and coupling in the heading."""
+    from scanner.report.figsave import save  # matplotlib loads only when a plot is asked for
+    from scanner.report.sectionplot import section_figure
+
+    count = data["traces"]
+    roles = {data["aggressor"]: "aggressor", data["victim"]: "victim"} if data["kb"] is not None else {}
+    labels = [f"{roles[i]} ({i})" if i in roles else f"trace {i}" for i in range(count)]
+    coupling = (f", Kb {data['kb']:.4f}, Kf {data['kf_s_per_m'] * 1e12:.1f} ps/m" if data["kb"] is not None else "")
+    heading = (f"Cross-section: {count} trace{'s' if count != 1 else ''}, to scale"
+               + (f" ({data['layer']})" if data.get("layer") else ""))
+    detail = f"Z0 {data['z0_ohm'][0]:.1f} ohm, eps_eff {data['eps_eff'][0]:.3f}{coupling}"
+    save(section_figure(section, heading, detail, labels, roles), path, PLOT_DPI)

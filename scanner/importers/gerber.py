@@ -350,7 +350,7 @@ def _netlist_points(rec: NetlistRecords, n_layers: int) -> NetlistPoints:
 
 
 def design_name(file_names: list[str]) -> str:
-    """The design's name from what its copper files share ("ml6-logger-F_Cu.gbr", "ml6-logger-B_Cu.gbr"
+    """The design's name from what its copper files share ("ml6-logger-c1.gbr", "ml6-logger-c6.gbr"
     -> "ml6-logger"); empty when they share no word."""
     stems = [Path(n).stem for n in file_names]
     if len(stems) < 2:

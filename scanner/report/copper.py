@@ -15,7 +15,7 @@ from matplotlib.collections import LineCollection
 from matplotlib.patches import PathPatch
 
 from scanner.board.coverage import polygon_path
-from scanner.board.model import CopperLayer, TraceSegments
+from scanner.board.model import Board, CopperLayer, TraceSegments
 from scanner.report import palette
 
 #: above this many drawn items a layer's copper is rasterised in vector output
@@ -66,8 +66,10 @@ def draw_outline(ax, outline, fill: bool = True) -> None:
         ax.add_collection(LineCollection(lines, colors=palette.BOARD_EDGE, linewidths=0.9, zorder=Z_OUTLINE))
 
 
-def draw_copper(ax, layer: CopperLayer, window: Window, points_per_mm: float) -> int:
-    """The layer's traces, pads, vias and pours inside the window; returns how many items were drawn."""
+def draw_copper(ax, layer: CopperLayer, window: Window, points_per_mm: float,
+                tint: tuple[str, str, str] = palette.COPPER) -> int:
+    """The layer's traces, pads, vias and pours inside the window in the ``tint`` (trace, pad, pour colours);
+    returns how many items were drawn."""
     segments = segments_in(layer.segments, window)
     shapes = layer.shapes
     drawn = len(segments)
@@ -77,10 +79,22 @@ def draw_copper(ax, layer: CopperLayer, window: Window, points_per_mm: float) ->
         drawn += int(inside.sum())
     raster = drawn > RASTER_ABOVE
     if len(shapes):
-        for mask, colour, z in ((inside & pour, palette.POUR, Z_POUR), (inside & ~pour, palette.PAD, Z_PAD)):
+        for mask, colour, z in ((inside & pour, tint[2], Z_POUR), (inside & ~pour, tint[1], Z_PAD)):
             path = polygon_path(shapes.geometry[mask])
             if path is not None:
                 ax.add_artist(PathPatch(path, facecolor=colour, edgecolor="none", zorder=z, rasterized=raster))
     if len(segments):
-        ax.add_collection(stroke_collection(segments, points_per_mm, palette.TRACE, Z_TRACE, rasterized=raster))
+        ax.add_collection(stroke_collection(segments, points_per_mm, tint[0], Z_TRACE, rasterized=raster))
     return drawn
+
+
+def board_bounds(board: Board) -> tuple[float, float, float, float]:
+    """The outline's bounds, else the extent of all copper (mm)."""
+    if board.outline is not None and not board.outline.is_empty:
+        return tuple(float(v) for v in board.outline.bounds)
+    every = np.concatenate([np.zeros((0, 4))] + [stroke_bounds(layer.segments) for layer in board.layers]
+                           + [shapely.bounds(layer.shapes.geometry) for layer in board.layers if len(layer.shapes)])
+    if not np.isfinite(every).any():
+        return (0.0, 0.0, 1.0, 1.0)
+    return (float(np.nanmin(every[:, 0])), float(np.nanmin(every[:, 1])),
+            float(np.nanmax(every[:, 2])), float(np.nanmax(every[:, 3])))

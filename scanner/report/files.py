@@ -12,7 +12,7 @@ from scanner.scoring.results import ScanResult
 CSV_COLUMNS = ("rank", "status", "victim", "aggressor", "victim_class", "aggressor_class", "layer", "structure",
                "coupled_length_mm", "min_spacing_mm", "mean_spacing_mm", "x_mm", "y_mm", "next_mv", "fext_mv",
                "next_pct", "fext_pct", "next_budget_mv", "fext_budget_mv", "budget_used", "aggressor_model",
-               "fix_spacing_needed_mm", "fix_max_length_mm", "fix_layer")
+               "fix_spacing_needed_mm", "fix_max_length_mm", "fix_layer", "waived_by")
 
 #: first characters that make a spreadsheet read a cell as a formula (or hide the start of one)
 FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
@@ -66,5 +66,6 @@ def hotspots_csv(result: ScanResult) -> str:
         d["fix_spacing_needed_mm"] = fix.get("spacing_needed_mm")
         d["fix_max_length_mm"] = fix.get("max_length_mm")
         d["fix_layer"] = (fix.get("alternative_layer") or {}).get("layer")
+        d["waived_by"] = h.waiver["id"] if h.waived else None
         w.writerow(["" if d.get(k) is None else spreadsheet_safe(d.get(k)) for k in CSV_COLUMNS])
     return buf.getvalue()

@@ -27,6 +27,6 @@ def write_report_folder(result, board, out_dir: str | Path, images: bool = True)
         write_file(folder.path / CSV_FILE, table)
         write_file(folder.path / JSON_FILE, report)
         if images:
-            write_page(result, folder.path)
+            write_page(result, folder.path, board)
         folder.commit()
     return Path(out_dir)

@@ -1,39 +1,44 @@
-"""Write the report images: per-layer overlays, the all-layer overlay, hotspot crops and waveform plots.
+"""Write the report images: overlays, close-ups of the top runs and the plots that go with them.
 
 Files (names from ``scanner.report.names``): ``overlay-<layer>.png/.svg`` for each
-signal layer with findings shown, ``overlay-all.png/.svg``, and for the first
-``top`` ranks ``hotspot-<rank>.png`` and ``wave-<rank>.png``. Which findings are
-shown is decided in ``scanner.report.marks``. Every image names the run that drew it.
+signal layer with findings shown, ``overlay-all.png/.svg``; for up to ``top``
+distinct coupled runs (``scanner.report.view.detail_hotspots``), named by the rank
+of the finding shown, ``hotspot-<rank>.png``, ``wave-<rank>.png``,
+``section-<rank>.png`` and ``whatif-<rank>.png``; ``budget-used.png`` and
+``stackup.png``. Which findings the overlays mark is decided in
+``scanner.report.marks``. Every image names the run that drew it (``run_metadata``).
 """
 from __future__ import annotations
 
-import io
 from pathlib import Path
 
-import matplotlib
 import numpy as np
-import shapely
-from matplotlib.collections import LineCollection
 from matplotlib.lines import Line2D
-from matplotlib.patches import Rectangle
+from matplotlib.patches import Patch, Rectangle
 
 from scanner.board.model import Board
-from scanner.outputs import write_file
-from scanner.report import names, overlay, palette
-from scanner.report.copper import draw_copper, draw_outline, stroke_bounds
-from scanner.report.marks import (Finding, Mark, RoleTraces, composite_marks, has_geometric, layer_marks, layer_roles,
-                                  layers_with_findings, role_segments, run_rows_on, shown_findings)
+from scanner.report import dimensions, names, overlay, palette
+from scanner.report.copper import board_bounds, draw_copper, draw_outline
+from scanner.report.budgetplot import budget_figure
+from scanner.report.figsave import Picture, save
+from scanner.report.marks import (Finding, Mark, RoleTraces, composite_marks, has_geometric, hotspot_title,
+                                  layer_marks, layer_roles, layers_with_findings, role_segments, run_rows_on,
+                                  shown_findings)
+from scanner.report.sectionplot import hotspot_section, section_figure
+from scanner.report.stackplot import stackup_figure
+from scanner.report.view import DETAIL_TOP, detail_hotspots, victims_by_use
 from scanner.report.waveplot import finding_waveforms, wave_figure
+from scanner.report.whatif import what_if, what_if_figure
 from scanner.scoring.results import Hotspot, ScanResult
 
-#: hotspots (by rank) that get a crop and a waveform plot
-DETAIL_TOP = 10
 OVERLAY_DPI = 150
-DETAIL_DPI = 130
+DETAIL_DPI = 110
 BOARD_VIEW_IN = ((11.0, 8.0), (5.0, 3.5))  # largest and smallest axes box (inches)
 CROP_VIEW_IN = ((8.5, 5.5), (6.5, 3.2))
 #: the worst piece is shaded this many points wider than its pair of traces
 WORST_HALO_PT = 5.0
+#: a run's traces on the layers other than its main one are drawn this opaque
+OTHER_LAYER_ALPHA = 0.5
 
 
 def run_metadata(result: ScanResult, fmt: str) -> dict:
@@ -44,26 +49,6 @@ def run_metadata(result: ScanResult, fmt: str) -> dict:
     return {"nearfar-run": result.run_id, "Creation Time": result.created}
 
 
-def _save(fig, path: Path, fmt: str, dpi: int, result: ScanResult) -> Path:
-    buf = io.BytesIO()
-    with matplotlib.rc_context({"svg.hashsalt": "nearfar", "svg.fonttype": "path"}):
-        fig.savefig(buf, format=fmt, dpi=dpi, facecolor=fig.get_facecolor(), metadata=run_metadata(result, fmt),
-                    **({} if fmt == "svg" else {"pil_kwargs": {"compress_level": 1}}))
-    return write_file(path, buf.getvalue())
-
-
-def board_bounds(board: Board) -> tuple[float, float, float, float]:
-    """The outline's bounds, else the extent of all copper (mm)."""
-    if board.outline is not None and not board.outline.is_empty:
-        return tuple(float(v) for v in board.outline.bounds)
-    every = np.concatenate([np.zeros((0, 4))] + [stroke_bounds(layer.segments) for layer in board.layers]
-                           + [shapely.bounds(layer.shapes.geometry) for layer in board.layers if len(layer.shapes)])
-    if not np.isfinite(every).any():
-        return (0.0, 0.0, 1.0, 1.0)
-    return (float(np.nanmin(every[:, 0])), float(np.nanmin(every[:, 1])),
-            float(np.nanmax(every[:, 2])), float(np.nanmax(every[:, 3])))
-
-
 def _board_canvas(board: Board) -> overlay.Canvas:
     canvas = overlay.canvas_for(overlay.padded(board_bounds(board), 0.05, 1.0), *BOARD_VIEW_IN)
     draw_outline(canvas.ax, board.outline)
@@ -71,11 +56,12 @@ def _board_canvas(board: Board) -> overlay.Canvas:
 
 
 def _finish(canvas: overlay.Canvas, marks: list[Mark], entries: list, heading: str, detail: str,
-            shaped: bool = False) -> None:
+            shaped: bool = False) -> dict[str, str]:
     obstacles = overlay.scale_bar(canvas)
-    overlay.draw_marks(canvas, marks, obstacles, shaped=shaped)
+    titles = overlay.draw_marks(canvas, marks, obstacles, shaped=shaped)
     overlay.legend(canvas, overlay.status_handles(marks) + entries)
     overlay.title(canvas, heading, detail)
+    return titles
 
 
 def _geometric_note(marks: list[Mark]) -> str:
@@ -87,21 +73,24 @@ def _count(marks: list[Mark]) -> str:
     return f"{findings} finding{'s' if findings != 1 else ''} at {len(marks)} place{'s' if len(marks) != 1 else ''}"
 
 
-def layer_figure(result: ScanResult, board: Board, shown: list[Finding], layer_index: int):
+def layer_figure(result: ScanResult, board: Board, shown: list[Finding], layer_index: int) -> Picture:
     layer = board.layers[layer_index]
     canvas = _board_canvas(board)
     draw_copper(canvas.ax, layer, canvas.window, canvas.points_per_mm)
     overlay.draw_roles(canvas, layer_roles(result, board, shown, layer_index))
     marks = layer_marks(result, board, shown, layer_index)
     entries = overlay.role_handles() + overlay.copper_handles(board.outline is not None)
-    _finish(canvas, marks, entries, f"{board.name} — layer {layer.name} ({layer.side}, seen from the top)",
-            f"{_count(marks)}; labels give the rank in the report table" + _geometric_note(marks))
-    return canvas.figure
+    titles = _finish(canvas, marks, entries, f"{board.name} — layer {layer.name} ({layer.side}, seen from the top)",
+                     f"{_count(marks)}; labels give the rank in the report table" + _geometric_note(marks))
+    return Picture(canvas.figure, titles)
 
 
-def composite_figure(result: ScanResult, board: Board, shown: list[Finding]):
+def composite_figure(result: ScanResult, board: Board, shown: list[Finding]) -> Picture:
+    """Every signal layer's copper, dimmed, under one marker per run."""
     canvas = _board_canvas(board)
-    entries = []
+    for layer in board.signal_layers:
+        draw_copper(canvas.ax, layer, canvas.window, canvas.points_per_mm, palette.COPPER_DIM)
+    entries = [(Patch(facecolor=palette.COPPER_DIM[1], edgecolor="none"), "copper of all signal layers")]
     if board.outline is None:
         x0, y0, x1, y1 = board_bounds(board)
         canvas.ax.add_patch(Rectangle((x0, y0), x1 - x0, y1 - y0, fill=False, edgecolor=palette.BOARD_EDGE,
@@ -112,49 +101,92 @@ def composite_figure(result: ScanResult, board: Board, shown: list[Finding]):
         entries.append((Line2D([], [], color=palette.BOARD_EDGE), "board outline"))
     marks = composite_marks(result, board, shown)
     entries = overlay.side_handles(m.side for m in marks) + entries
-    _finish(canvas, marks, entries, f"{board.name} — findings on all layers (seen from the top)",
-            f"{_count(marks)}, each at its worst stretch on its main layer", shaped=True)
-    return canvas.figure
+    titles = _finish(canvas, marks, entries, f"{board.name} — findings on all layers (seen from the top)",
+                     f"{_count(marks)}, each at its worst stretch on its main layer", shaped=True)
+    return Picture(canvas.figure, titles)
 
 
-def crop_figure(result: ScanResult, board: Board, hotspot: Hotspot):
-    """A zoomed view of one finding's run on its main layer; its pieces on other layers dotted."""
-    main = int(result.runs.main_layer[hotspot.run])
+def _victim_side(result: ScanResult, board: Board, hotspot: Hotspot, row: int, normal: np.ndarray) -> float:
+    """+1 when the victim's trace lies on the normal's side of the piece's centre line, else -1."""
     p = result.runs.pieces
-    rows = run_rows_on(result, hotspot.run, main)
+    victim_is_a = p.net_a[row] == board.net_id(hotspot.victim)
+    segments = board.layers[int(p.layer[row] if victim_is_a else p.layer_b[row])].segments
+    k = int(p.seg_a[row] if victim_is_a else p.seg_b[row])
+    middle = np.array([segments.x0[k] + segments.x1[k], segments.y0[k] + segments.y1[k]]) / 2
+    centre = np.array([p.x0_mm[row] + p.x1_mm[row], p.y0_mm[row] + p.y1_mm[row]]) / 2
+    return 1.0 if float((middle - centre) @ normal) >= 0 else -1.0
+
+
+def _annotate_run(canvas: overlay.Canvas, result: ScanResult, board: Board, hotspot: Hotspot, rows: np.ndarray) -> None:
+    """Net names at the worst stretch, the gap across it and the coupled length beside the run."""
+    p = result.runs.pieces
+    row = int(result.runs.worst_piece[hotspot.run])
+    start = np.array([p.x0_mm[row], p.y0_mm[row]])
+    end = np.array([p.x1_mm[row], p.y1_mm[row]])
+    direction = (end - start) / max(float(np.hypot(*(end - start))), 1e-9)
+    normal = np.array([-direction[1], direction[0]])
+    side = _victim_side(result, board, hotspot, row, normal)
+    widths = float(max(p.width_a_mm[row], p.width_b_mm[row]))
+    at = start + 0.2 * (end - start)
+    dimensions.net_label(canvas, at + side * (p.spacing_mean_mm[row] + widths) / 2 * normal, normal, side,
+                         f"{hotspot.victim} (victim)", palette.VICTIM)
+    dimensions.net_label(canvas, at - side * (p.spacing_mean_mm[row] + widths) / 2 * normal, normal, -side,
+                         f"{hotspot.aggressor} (aggressor)", palette.AGGRESSOR)
+    reach = p.spacing_min_mm[row] / 2 + widths + 3.0 / canvas.points_per_mm
+    dimensions.gap_mark(canvas, start + 0.72 * (end - start), normal, reach, hotspot.min_spacing_mm, side)
+    ends = np.column_stack([np.concatenate([p.x0_mm[rows], p.x1_mm[rows]]),
+                            np.concatenate([p.y0_mm[rows], p.y1_mm[rows]])])
+    dimensions.length_mark(canvas, ends, direction, widths + float(p.spacing_mean_mm[rows].max()),
+                           hotspot.coupled_length_mm, -side)
+
+
+def crop_figure(result: ScanResult, board: Board, hotspot: Hotspot) -> Picture:
+    """A zoomed view of one finding's whole run: its main layer's copper, the run's traces on every layer it
+    uses (paler off the main layer), net names, the gap and the coupled length."""
+    runs = result.runs
+    main = int(runs.main_layer[hotspot.run])
+    p = runs.pieces
+    rows = runs.pieces_of(hotspot.run)
     bounds = (min(p.x0_mm[rows].min(), p.x1_mm[rows].min()), min(p.y0_mm[rows].min(), p.y1_mm[rows].min()),
               max(p.x0_mm[rows].max(), p.x1_mm[rows].max()), max(p.y0_mm[rows].max(), p.y1_mm[rows].max()))
-    canvas = overlay.canvas_for(overlay.padded(bounds, 0.12, 1.5), *CROP_VIEW_IN)
+    canvas = overlay.canvas_for(overlay.padded(bounds, 0.12, 2.5), *CROP_VIEW_IN)
     draw_outline(canvas.ax, board.outline)
+    others = [k for k in runs.layers_of(hotspot.run) if k != main]
+    for k in others:
+        draw_copper(canvas.ax, board.layers[k], canvas.window, canvas.points_per_mm, palette.COPPER_DIM)
     layer = board.layers[main]
     draw_copper(canvas.ax, layer, canvas.window, canvas.points_per_mm)
     victim, aggressor = role_segments(result, board, hotspot, main)
     overlay.draw_roles(canvas, RoleTraces(layer.segments.select(victim), layer.segments.select(aggressor)))
     entries = overlay.role_handles() + overlay.copper_handles(board.outline is not None)
-    others = [k for k in result.runs.layers_of(hotspot.run) if k != main]
     for k in others:
         v, a = role_segments(result, board, hotspot, k)
-        for idx, colour in ((a, palette.AGGRESSOR), (v, palette.VICTIM)):
-            s = board.layers[k].segments.select(idx)
-            canvas.ax.add_collection(LineCollection(
-                np.stack([np.column_stack([s.x0, s.y0]), np.column_stack([s.x1, s.y1])], axis=1),
-                colors=colour, linewidths=1.1, linestyles=(0, (1, 2)), zorder=overlay.Z_HIGHLIGHT))
+        segments = board.layers[k].segments
+        overlay.draw_roles(canvas, RoleTraces(segments.select(v), segments.select(a)), alpha=OTHER_LAYER_ALPHA)
     if others:
-        entries.append((Line2D([], [], color=palette.INK, linewidth=1.1, linestyle=(0, (1, 2))),
-                        "run on " + ", ".join(board.layers[k].name for k in others)))
+        names_other = ", ".join(board.layers[k].name for k in others)
+        entries.append(((Line2D([], [], color=palette.VICTIM, linewidth=4, alpha=OTHER_LAYER_ALPHA),
+                         Line2D([], [], color=palette.AGGRESSOR, linewidth=2, alpha=OTHER_LAYER_ALPHA)),
+                        f"the run on {names_other} (paler, copper there dimmed)"))
     x0, y0, x1, y1 = hotspot.extent_mm
-    halo = float((p.width_a_mm[rows] + p.width_b_mm[rows] + p.spacing_mean_mm[rows]).max()) * canvas.points_per_mm \
-        + WORST_HALO_PT
+    on_main = run_rows_on(result, hotspot.run, main)
+    halo = float((p.width_a_mm[on_main] + p.width_b_mm[on_main] + p.spacing_mean_mm[on_main]).max()) \
+        * canvas.points_per_mm + WORST_HALO_PT
     colour = palette.STATUS_COLOUR[hotspot.status]
     canvas.ax.plot([x0, x1], [y0, y1], color=colour, alpha=0.28, linewidth=halo, solid_capstyle="butt",
                    zorder=overlay.Z_WORST)
     entries.append((Line2D([], [], color=colour, alpha=0.28, linewidth=6), "worst stretch"))
-    mark = Mark(hotspot.x_mm, hotspot.y_mm, str(hotspot.rank), hotspot.status, hotspot.rank, layer.side)
-    _finish(canvas, [mark], entries, f"#{hotspot.rank}  {hotspot.victim} (victim) ← {hotspot.aggressor} "
-            f"(aggressor) on {layer.name}",
-            f"{board.name}: {hotspot.coupled_length_mm:.4g} mm coupled, ≥ {hotspot.min_spacing_mm:.3g} mm apart; "
-            f"NEXT {hotspot.next_mv:.4g} mV, FEXT {hotspot.fext_mv:.4g} mV; {100 * hotspot.budget_used:.0f} % of budget")
-    return canvas.figure
+    entries.append((Line2D([], [], color=palette.DIMENSION, linewidth=0.9), "gap and coupled length"))
+    _annotate_run(canvas, result, board, hotspot, rows)
+    mark = Mark(hotspot.x_mm, hotspot.y_mm, str(hotspot.rank), hotspot.status, hotspot.rank, layer.side,
+                hotspot_title(hotspot))
+    layer_names = " and ".join([layer.name] + [board.layers[k].name for k in others])
+    titles = _finish(canvas, [mark], entries, f"#{hotspot.rank}  {hotspot.victim} (victim) ← {hotspot.aggressor} "
+                     f"(aggressor) on {layer_names}",
+                     f"{board.name}: {hotspot.coupled_length_mm:.4g} mm coupled, ≥ {hotspot.min_spacing_mm:.3g} mm "
+                     f"apart; NEXT {hotspot.next_mv:.4g} mV, FEXT {hotspot.fext_mv:.4g} mV; "
+                     f"{100 * hotspot.budget_used:.0f} % of budget")
+    return Picture(canvas.figure, titles)
 
 
 def write_images(result: ScanResult, board: Board, out_dir: str | Path, top: int = DETAIL_TOP) -> list[Path]:
@@ -167,12 +199,26 @@ def write_images(result: ScanResult, board: Board, out_dir: str | Path, top: int
                 for k in layers_with_findings(result, shown)]
     overlays.append((names.COMPOSITE_STEM, lambda: composite_figure(result, board, shown)))
     for stem, make in overlays:
-        fig = make()
-        written += [_save(fig, out_dir / f"{stem}.{fmt}", fmt, OVERLAY_DPI, result) for fmt in ("png", "svg")]
-    for hotspot in result.hotspots[:top]:
-        written.append(_save(crop_figure(result, board, hotspot), out_dir / names.crop_file(hotspot.rank), "png",
-                             DETAIL_DPI, result))
+        picture = make()
+        written += [save(picture, out_dir / f"{stem}.{fmt}", OVERLAY_DPI, run_metadata(result, fmt))
+                    for fmt in ("png", "svg")]
+    png = run_metadata(result, "png")
+    for hotspot in detail_hotspots(result, top):
+        written.append(save(crop_figure(result, board, hotspot), out_dir / names.crop_file(hotspot.rank), DETAIL_DPI,
+                            png))
         waves = finding_waveforms(result, board, hotspot)
-        written.append(_save(wave_figure(waves, hotspot), out_dir / names.wave_file(hotspot.rank), "png", DETAIL_DPI,
-                             result))
+        written.append(save(wave_figure(waves, hotspot), out_dir / names.wave_file(hotspot.rank), DETAIL_DPI, png))
+        section = hotspot_section(result, board, hotspot)
+        if section is not None:
+            written.append(save(section_figure(*section), out_dir / names.section_file(hotspot.rank), DETAIL_DPI,
+                                png))
+        sweeps = what_if(result, hotspot)
+        if sweeps is not None:
+            written.append(save(what_if_figure(sweeps, hotspot), out_dir / names.whatif_file(hotspot.rank),
+                                DETAIL_DPI, png))
+    if result.victims:
+        bars = budget_figure(victims_by_use(result), result.settings.get("budget_basis", "worst-case"))
+        written.append(save(bars, out_dir / names.BUDGET_FILE, DETAIL_DPI, png))
+    if result.stackup.get("layers"):
+        written.append(save(stackup_figure(result), out_dir / names.STACKUP_FILE, DETAIL_DPI, png))
     return written

@@ -22,7 +22,8 @@ PASS_SHOWN_TOP = 10
 
 @dataclass(frozen=True)
 class Finding:
-    """One thing to mark: its run, victim net, label, status, drawing priority and location (mm)."""
+    """One thing to mark: its run, victim net, label, status, drawing priority, location (mm) and a line
+    of text naming the nets and figures (the hover title in vector output)."""
 
     run: int
     victim: str
@@ -31,11 +32,13 @@ class Finding:
     order: int
     x_mm: float
     y_mm: float
+    title: str = ""
 
 
 @dataclass(frozen=True)
 class Mark:
-    """One marker: board position (mm), label text, worst status, priority (lower first), copper side."""
+    """One marker: board position (mm), label text, worst status, priority (lower first), copper side,
+    hover title."""
 
     x_mm: float
     y_mm: float
@@ -43,6 +46,7 @@ class Mark:
     status: str
     order: int
     side: str
+    title: str = ""
 
 
 @dataclass(frozen=True)
@@ -66,12 +70,21 @@ def has_geometric(marks: list[Mark]) -> bool:
 def shown_findings(result: ScanResult, pass_top: int = PASS_SHOWN_TOP) -> list[Finding]:
     """Noise findings with status fail or warn, passing ones among the first ``pass_top`` ranks, and every
     broken geometric limit."""
-    out = [Finding(h.run, h.victim, str(h.rank), h.status, h.rank, h.x_mm, h.y_mm)
+    out = [Finding(h.run, h.victim, str(h.rank), h.status, h.rank, h.x_mm, h.y_mm, hotspot_title(h))
            for h in result.hotspots if h.status != "pass" or h.rank <= pass_top]
     after = len(result.hotspots) + 1
-    out += [Finding(g.run, g.victim, geometric_label(i), g.status, after + i, g.x_mm, g.y_mm)
+    out += [Finding(g.run, g.victim, geometric_label(i), g.status, after + i, g.x_mm, g.y_mm,
+                    f"{geometric_label(i)} {g.victim} beside {g.aggressor}: {g.parallel_mm:.4g} mm within "
+                    f"{g.within_spacing_mm:g} mm, limit {g.max_parallel_mm:g} mm")
             for i, g in enumerate(result.geometric)]
     return out
+
+
+def hotspot_title(h: Hotspot) -> str:
+    """One line naming a finding's nets and figures."""
+    return (f"#{h.rank} {h.victim} (victim) ← {h.aggressor}: {100 * h.budget_used:.0f} % of budget, "
+            f"NEXT {h.next_mv:.4g} mV, FEXT {h.fext_mv:.4g} mV, {h.coupled_length_mm:.4g} mm at "
+            f"≥ {h.min_spacing_mm:.3g} mm on {'+'.join(h.layers)}")
 
 
 def by_run(findings: list[Finding]) -> dict[int, list[Finding]]:
@@ -84,7 +97,8 @@ def by_run(findings: list[Finding]) -> dict[int, list[Finding]]:
 
 def _mark(group: list[Finding], x: float, y: float, side: str) -> Mark:
     status = min((f.status for f in group), key=STATUS_ORDER.__getitem__)
-    return Mark(float(x), float(y), ",".join(f.label for f in group), status, group[0].order, side)
+    return Mark(float(x), float(y), ",".join(f.label for f in group), status, group[0].order, side,
+                "\n".join(f.title for f in group))
 
 
 def run_rows_on(result: ScanResult, run: int, layer_index: int) -> np.ndarray:

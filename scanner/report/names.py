@@ -25,6 +25,10 @@ def layer_stems(layer_names: list[str]) -> dict[str, str]:
     return stems
 
 
+BUDGET_FILE = "budget-used.png"
+STACKUP_FILE = "stackup.png"
+
+
 def crop_file(rank: int) -> str:
     return f"hotspot-{rank}.png"
 
@@ -33,9 +37,17 @@ def wave_file(rank: int) -> str:
     return f"wave-{rank}.png"
 
 
+def section_file(rank: int) -> str:
+    return f"section-{rank}.png"
+
+
+def whatif_file(rank: int) -> str:
+    return f"whatif-{rank}.png"
+
+
 #: names of the files a report folder holds (and the temporary files of earlier versions of nearfar)
 _REPORT_FILE = re.compile(r"report\.json|report\.html|hotspots\.csv|overlay-[A-Za-z0-9._-]+\.(?:png|svg)"
-                          r"|(?:hotspot|wave)-\d+\.png|\..+\.part")
+                          r"|(?:hotspot|wave|section|whatif)-\d+\.png|budget-used\.png|stackup\.png|\..+\.part")
 
 
 def is_report_file(name: str) -> bool:

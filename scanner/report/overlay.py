@@ -98,16 +98,18 @@ def scale_bar(canvas: Canvas) -> np.ndarray:
     return np.array([[0.0, 0.0, length * canvas.points_per_mm + 22.0, 34.0]])
 
 
-def draw_roles(canvas: Canvas, roles: RoleTraces) -> None:
-    """Victim traces solid teal, aggressor traces plum with a pale dashed centre line."""
+def draw_roles(canvas: Canvas, roles: RoleTraces, alpha: float = 1.0) -> None:
+    """Victim traces solid teal, aggressor traces plum with a pale dashed centre line (``alpha`` < 1: a run's
+    pieces on another layer)."""
     for segments, colour in ((roles.aggressor, palette.AGGRESSOR), (roles.victim, palette.VICTIM)):
         if len(segments) == 0:
             continue
         widened = _widened(segments, MIN_HIGHLIGHT_PT / canvas.points_per_mm)
-        canvas.ax.add_collection(stroke_collection(widened, canvas.points_per_mm, colour, Z_HIGHLIGHT))
+        canvas.ax.add_collection(stroke_collection(widened, canvas.points_per_mm, colour, Z_HIGHLIGHT, alpha=alpha))
     if len(roles.aggressor):
         dash = _widened(roles.aggressor, 0.0)
-        lines = stroke_collection(dash, canvas.points_per_mm, palette.AGGRESSOR_DASH, Z_DASH, linestyles=(0, (3, 3)))
+        lines = stroke_collection(dash, canvas.points_per_mm, palette.AGGRESSOR_DASH, Z_DASH, linestyles=(0, (3, 3)),
+                                  alpha=alpha)
         lines.set_linewidths(np.clip(dash.width * canvas.points_per_mm * 0.3, 0.4, 1.0))
         canvas.ax.add_collection(lines)
 
@@ -117,11 +119,12 @@ def _widened(segments: TraceSegments, min_width_mm: float) -> TraceSegments:
                          np.maximum(segments.width, min_width_mm), segments.net)
 
 
-def draw_marks(canvas: Canvas, marks: list[Mark], obstacles: np.ndarray, shaped: bool = False) -> None:
+def draw_marks(canvas: Canvas, marks: list[Mark], obstacles: np.ndarray, shaped: bool = False) -> dict[str, str]:
     """Markers at the findings (shaped by copper side when ``shaped``) and their labels, placed clear of each
-    other and of the obstacles (boxes in axes points), joined to them by leader lines."""
+    other and of the obstacles (boxes in axes points), joined to them by leader lines. Returns the hover
+    title of each label by its id in vector output."""
     if not marks:
-        return
+        return {}
     marks = sorted(marks, key=lambda m: m.order)
     ax, ppm = canvas.ax, canvas.points_per_mm
     wx0, wy0 = canvas.window[0], canvas.window[1]
@@ -144,11 +147,16 @@ def draw_marks(canvas: Canvas, marks: list[Mark], obstacles: np.ndarray, shaped:
     leaders = np.stack([np.column_stack([[m.x_mm for m in marks], [m.y_mm for m in marks]]),
                         np.column_stack([label_x, label_y])], axis=1)
     ax.add_collection(LineCollection(leaders, colors=palette.LEADER, linewidths=0.6, zorder=Z_LEADER))
-    for m, lx, ly in zip(marks, label_x, label_y):
-        ax.text(lx, ly, m.text, ha="center", va="center", fontproperties=LABEL_FONT,
-                color=palette.STATUS_TEXT[m.status], zorder=Z_LABEL, clip_on=False,
-                bbox=dict(boxstyle=f"round,pad={LABEL_PAD_PT / LABEL_FONT.get_size()}",
-                          facecolor=palette.STATUS_COLOUR[m.status], edgecolor="white", linewidth=0.6))
+    titles = {}
+    for i, (m, lx, ly) in enumerate(zip(marks, label_x, label_y)):
+        text = ax.text(lx, ly, m.text, ha="center", va="center", fontproperties=LABEL_FONT,
+                       color=palette.STATUS_TEXT[m.status], zorder=Z_LABEL, clip_on=False,
+                       bbox=dict(boxstyle=f"round,pad={LABEL_PAD_PT / LABEL_FONT.get_size()}",
+                                 facecolor=palette.STATUS_COLOUR[m.status], edgecolor="white", linewidth=0.6))
+        if m.title:
+            text.set_gid(f"mark-{i}")
+            titles[f"mark-{i}"] = m.title
+    return titles
 
 
 def status_handles(marks: list[Mark]) -> list:

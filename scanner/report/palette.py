@@ -16,6 +16,9 @@ BOARD_EDGE = "#6e6557"
 TRACE = "#cdc5b6"
 PAD = "#bfb6a5"
 POUR = "#e4dfd4"
+COPPER = (TRACE, PAD, POUR)
+#: copper under markers on the all-layer map and on the other layers of a crop: paler still
+COPPER_DIM = ("#e2dccf", "#dbd4c5", "#eeeae2")
 BACKGROUND = "#ffffff"
 INK = "#2b2620"
 LEADER = "#4a443b"
@@ -29,3 +32,5 @@ FAR_END = "#b3471d"
 EDGE = "#8c8478"
 BUDGET_BAND = "#e9efe4"
 BUDGET_LINE = "#5a8a3c"
+#: dimension marks and net-name labels on the close-ups
+DIMENSION = "#3d5a80"

@@ -4,6 +4,8 @@ from __future__ import annotations
 from scanner.report.checked import (VERDICT_WORD, board_notes, checked_sentence, gap_lines, reference_lines,
                                     verdict_sentence)
 from scanner.scoring.results import CAUTION, ScanResult
+from scanner.signoff.compare_text import comparison_summary
+from scanner.signoff.waiver_text import waiver_lines
 
 STATUS_MARK = {"fail": "FAIL", "warn": "warn", "pass": "ok"}
 
@@ -44,7 +46,7 @@ def render(result: ScanResult, top: int = 20) -> str:
             fix_text = f"gap≥{fix['spacing_needed_mm']:.3g}"
         if fix.get("max_length_mm") is not None:
             fix_text += (" or " if fix_text else "") + f"len≤{fix['max_length_mm']:.3g}"
-        rows.append((str(h.rank), STATUS_MARK[h.status], _trim(h.victim, 18), _trim(h.aggressor, 18),
+        rows.append((str(h.rank), "waived" if h.waived else STATUS_MARK[h.status], _trim(h.victim, 18), _trim(h.aggressor, 18),
                      _trim("+".join(h.layers), 12), f"{h.coupled_length_mm:.1f}", f"{h.min_spacing_mm:.3f}",
                      f"{h.next_mv:.0f}", f"{h.fext_mv:.0f}", f"{100 * h.budget_used:.0f}%",
                      f"{h.x_mm:.2f},{h.y_mm:.2f}", fix_text))
@@ -72,11 +74,14 @@ def render(result: ScanResult, top: int = 20) -> str:
                          f"(limit {g.max_parallel_mm:g} mm), closest {g.min_spacing_mm:.3f} mm at "
                          f"{g.x_mm:.2f},{g.y_mm:.2f}")
     lines += _impedance_lines(result.impedance, top)
+    lines += waiver_lines(result)
     sm = result.summary
     lines += ["", f"{sm['victims']} victims: {sm['victims_fail']} fail, {sm['victims_warn']} warn, "
                   f"{sm['victims_pass']} pass — {sm['coupled_runs']} coupled runs scored; {checked_sentence(result)}. "
-                  f"Overall: {VERDICT_WORD[result.verdict]}",
-              f"caution: {CAUTION}"]
+                  f"Overall: {VERDICT_WORD[result.verdict]}"]
+    if result.comparison is not None:
+        lines.append(comparison_summary(result.comparison))
+    lines.append(f"caution: {CAUTION}")
     return "\n".join(lines)
 
 

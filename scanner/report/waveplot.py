@@ -25,7 +25,9 @@ from scanner.scoring.results import Hotspot, ScanResult
 from scanner.rules import receiver_gain
 
 GRID_POINTS = 1200
-FIGURE_IN = (8.0, 4.8)
+FIGURE_WIDTH_IN = 8.0
+#: height of one receiver scenario's panel, and of the title and bottom margins (inches)
+PANEL_IN, HEADER_IN, FOOTER_IN = 2.9, 0.8, 0.1
 ODD_MODE = "differential (odd mode)"
 
 
@@ -109,9 +111,9 @@ def _budget_lines(ax, budgets: dict[str, float], limits_mv: tuple[float, float])
             break
 
 
-def _limits_mv(waves: FindingWaveforms, budgets: dict[str, float]) -> tuple[float, float]:
-    """y range (mV) around both curves and the budgets unless these dwarf the noise; zero always inside."""
-    values = np.concatenate([waves.near_end_v, waves.far_end_v])
+def _limits_mv(curves: list[np.ndarray], budgets: dict[str, float]) -> tuple[float, float]:
+    """y range (mV) around the curves and the budgets unless these dwarf the noise; zero always inside."""
+    values = np.concatenate(curves)
     noise_max = max(float(np.abs(values).max()), 1e-6)
     budget = max([b for b in budgets.values() if b <= 4 * noise_max], default=0.0)
     high = max(float(values.max()), budget, 0.15 * noise_max)
@@ -120,58 +122,91 @@ def _limits_mv(waves: FindingWaveforms, budgets: dict[str, float]) -> tuple[floa
     return 1e3 * (low - room), 1e3 * (high + room)
 
 
-def wave_figure(waves: FindingWaveforms, hotspot: Hotspot) -> Figure:
-    """Near-end and far-end victim noise (mV) with the budget band and the aggressor edge (right axis)."""
-    fig = Figure(figsize=FIGURE_IN, facecolor=palette.BACKGROUND)
-    FigureCanvasAgg(fig)
-    ax = fig.add_axes((0.09, 0.25, 0.8, 0.58))
-    t_ns = waves.time_s * 1e9
+@dataclass(frozen=True)
+class Scenario:
+    """Where the victim's receiver sits, and what each end of the victim sees then."""
+
+    title: str
+    curves: list[tuple[np.ndarray, str, str, bool]]  # (volts, colour, label, marked: the receiver's curve)
+
+
+def scenarios(waves: FindingWaveforms) -> list[Scenario]:
+    """One scenario per receiver position (docs/physics.md §4): with a high-impedance receiver, either at the far
+    end (victim driven from the aggressor's driver end: the receiver sees the doubled FEXT, the near-end wave
+    lands on the victim's own driver) or at the near end (driven from the other end: the receiver sees the doubled
+    NEXT). A victim matched at both ends has one scenario: each end takes its wave as it arrives."""
+    gain = waves.receiver_gain
+    if gain == 1:
+        return [Scenario("Victim matched at both ends: each end takes the wave arriving there",
+                         [(waves.near_end_v, palette.NEAR_END, "near end (nearer the aggressor's driver)", True),
+                          (waves.far_end_v, palette.FAR_END, "far end", True)])]
+    return [Scenario("Receiver at the far end (victim driven from the same end as the aggressor)",
+                     [(waves.far_end_v, palette.FAR_END, "far end, at the receiver (doubled)", True),
+                      (waves.near_end_v / gain, palette.NEAR_END, "near end, into the victim's driver", False)]),
+            Scenario("Receiver at the near end (victim driven from the far end)",
+                     [(waves.near_end_v, palette.NEAR_END, "near end, at the receiver (doubled)", True),
+                      (waves.far_end_v / gain, palette.FAR_END, "far end, into the victim's driver", False)])]
+
+
+def _panel(ax, t_ns, waves: FindingWaveforms, scenario: Scenario, hotspot: Hotspot, last: bool) -> None:
     budgets = _budgets_v(hotspot)
-    low, high = _limits_mv(waves, budgets)
+    low, high = _limits_mv([c for c, _, _, _ in scenario.curves], budgets)
     _budget_lines(ax, budgets, (low, high))
-    doubled = " (into a high-impedance receiver: doubled)" if waves.receiver_gain != 1 else ""
-    ax.plot(t_ns, waves.near_end_v * 1e3, color=palette.NEAR_END, linewidth=1.7, label="near end" + doubled,
-            zorder=3)
-    ax.plot(t_ns, waves.far_end_v * 1e3, color=palette.FAR_END, linewidth=1.7, label="far end" + doubled, zorder=3)
     exact = hotspot.exact or {}
-    for peak_v, values, colour, name in ((waves.near_end_peak_v, waves.near_end_v, palette.NEAR_END, "NEXT"),
-                                         (waves.far_end_peak_v, waves.far_end_v, palette.FAR_END, "FEXT")):
-        t_peak = t_ns[np.argmax(np.abs(values))]
-        ax.plot([t_peak], [peak_v * 1e3], "o", color=colour, markersize=4, zorder=4)
-        ax.annotate(f"{name} {peak_v * 1e3:.4g} mV", (t_peak, peak_v * 1e3), textcoords="offset points",
-                    xytext=(6, 6 if peak_v >= 0 else -12), fontsize=7.5, color=colour, zorder=5)
+    for volts, colour, label, marked in scenario.curves:
+        ax.plot(t_ns, volts * 1e3, color=colour, linewidth=1.7 if marked else 1.0, label=label, zorder=3,
+                linestyle="-" if marked else (0, (4, 2)))
+        if not marked:
+            continue
+        name = "NEXT" if colour == palette.NEAR_END else "FEXT"
+        k = int(np.argmax(np.abs(volts)))
+        peak_mv = float(volts[k]) * 1e3
+        ax.plot([t_ns[k]], [peak_mv], "o", color=colour, markersize=4, zorder=4)
+        ax.annotate(f"{name} {peak_mv:.4g} mV", (t_ns[k], peak_mv), textcoords="offset points",
+                    xytext=(6, 6 if peak_mv >= 0 else -12), fontsize=7.5, color=colour, zorder=5)
         exact_mv = exact.get(f"{name.lower()}_mv")
         if exact_mv is not None:
             # the exact simulation reports a peak magnitude for NEXT: shown on the estimate's side of zero
-            shown_mv = abs(exact_mv) * np.sign(peak_v) if name == "NEXT" else exact_mv
-            ax.plot([t_peak], [shown_mv], "x", color=colour, markersize=7, markeredgewidth=1.6, zorder=4,
-                    label="exact line simulation, peak" if name == "NEXT" else None)
+            shown_mv = abs(exact_mv) * np.sign(peak_mv) if name == "NEXT" else exact_mv
+            ax.plot([t_ns[k]], [shown_mv], "x", color=colour, markersize=7, markeredgewidth=1.6, zorder=4,
+                    label=f"exact line simulation, {name} peak")
     ax.set_ylim(low, high)
     ax.set_xlim(t_ns[0], t_ns[-1])
     ax.axhline(0, color="#b9b1a3", linewidth=0.6, zorder=1)
-    ax.set_xlabel("time after the aggressor edge starts (ns)", fontsize=8)
+    ax.set_title(scenario.title, fontsize=8.5, loc="left", color=palette.INK)
+    if last:
+        ax.set_xlabel("time after the aggressor edge starts (ns)", fontsize=8)
     ax.set_ylabel("victim noise (mV)", fontsize=8)
     ax.tick_params(labelsize=7)
-    edge_ax = ax.twinx()
-    edge_ax.plot(t_ns, waves.aggressor_v, color=palette.EDGE, linestyle=(0, (2, 2)), linewidth=1.1,
-                 label=f"aggressor edge, {hotspot.rise_time_ns:g} ns 10–90 % (right axis)")
-    edge_top = 1.25 * hotspot.swing_v
-    edge_ax.set_ylim(edge_top * low / high, edge_top)  # zero volts level with zero millivolts
-    edge_ax.set_ylabel("aggressor (V)", fontsize=8, color=palette.EDGE)
-    edge_ax.tick_params(labelsize=7, colors=palette.EDGE)
-    handles, labels = ax.get_legend_handles_labels()
-    more_h, more_l = edge_ax.get_legend_handles_labels()
-    fig.legend(handles + more_h, labels + more_l, fontsize=7, loc="lower center", ncol=2, frameon=False,
-               bbox_to_anchor=(0.49, 0.0))
+    # the aggressor's edge as a shape on the same axes: zero level with zero, its swing at 80 % of the top
+    edge_scale = 0.8 * high / hotspot.swing_v
+    ax.plot(t_ns, waves.aggressor_v * edge_scale, color=palette.EDGE, linestyle=(0, (2, 2)), linewidth=1.1,
+            label=f"aggressor edge (shape), 0 to {hotspot.swing_v:g} V, {hotspot.rise_time_ns:g} ns 10–90 %")
+    ax.legend(fontsize=6.5, loc="upper right", frameon=True, framealpha=0.85, edgecolor="#e6e1d7")
+
+
+def wave_figure(waves: FindingWaveforms, hotspot: Hotspot) -> Figure:
+    """Victim noise (mV) for each receiver position, one panel each, with the budget band and the aggressor edge."""
+    panels = scenarios(waves)
+    height_in = PANEL_IN * len(panels) + HEADER_IN + FOOTER_IN
+    fig = Figure(figsize=(FIGURE_WIDTH_IN, height_in), facecolor=palette.BACKGROUND)
+    FigureCanvasAgg(fig)
+    t_ns = waves.time_s * 1e9
+    for i, scenario in enumerate(panels):
+        bottom = (FOOTER_IN + (len(panels) - 1 - i) * PANEL_IN + 0.35) / height_in
+        ax = fig.add_axes((0.09, bottom, 0.87, (PANEL_IN - 0.7) / height_in))
+        _panel(ax, t_ns, waves, scenario, hotspot, last=i == len(panels) - 1)
     note = ""
     if hotspot.aggressor_model == ODD_MODE:
         note = f"; run of {waves.aggressor} only, the table combines both members"
-    if exact:
-        note += f"; exact simulation NEXT {exact['next_mv']:.4g} mV, FEXT {exact['fext_mv']:.4g} mV"
-    room_in = 0.88 * FIGURE_IN[0]
-    fig.text(0.09, 0.93, fit_line(f"#{hotspot.rank}  {hotspot.victim} (victim) ← {hotspot.aggressor} (aggressor)",
-                                  room_in, 10), fontsize=10, color=palette.INK, ha="left")
-    fig.text(0.09, 0.875, fit_line(f"{hotspot.coupled_length_mm:.4g} mm on {'+'.join(hotspot.layers)} "
-                                   f"({hotspot.structure}), {hotspot.swing_v:g} V swing, weak-coupling model{note}",
-                                   room_in, 7.5), fontsize=7.5, color="#6b6357", ha="left")
+    if hotspot.exact:
+        note += f"; exact simulation NEXT {hotspot.exact['next_mv']:.4g} mV, FEXT {hotspot.exact['fext_mv']:.4g} mV"
+    room_in = 0.88 * FIGURE_WIDTH_IN
+    fig.text(0.09, 1 - 0.3 / height_in, fit_line(f"#{hotspot.rank}  {hotspot.victim} (victim) ← {hotspot.aggressor} "
+                                                 "(aggressor)", room_in, 10), fontsize=10, color=palette.INK, ha="left")
+    fig.text(0.09, 1 - 0.5 / height_in, fit_line(f"{hotspot.coupled_length_mm:.4g} mm on {'+'.join(hotspot.layers)} "
+                                                  f"({hotspot.structure}), {hotspot.swing_v:g} V swing{note}",
+                                                  room_in, 7.5), fontsize=7.5, color="#6b6357", ha="left")
+    fig.text(0.09, 1 - 0.66 / height_in, "Near end: the victim's end nearer the aggressor's driver; far end: the "
+             "other end.", fontsize=7.5, color="#6b6357", ha="left")
     return fig

@@ -16,6 +16,7 @@ import numpy as np
 from scanner.board.roles import NetRoles
 from scanner.rules import Rules
 from scanner.coupling.runs import CoupledRuns
+from scanner.scoring.results import is_waived
 
 
 @dataclass(frozen=True)
@@ -33,6 +34,11 @@ class GeometricFinding:
     x_mm: float
     y_mm: float
     run: int
+    waiver: dict | None = None  # as Hotspot.waiver
+
+    @property
+    def waived(self) -> bool:
+        return is_waived(self.waiver)
 
     def to_dict(self) -> dict:
         d = asdict(self)

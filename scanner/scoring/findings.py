@@ -12,6 +12,7 @@ from scanner.scoring.directions import DirectedRuns
 from scanner.scoring.exact_check import EXACT_CHECKS, exact_peaks
 from scanner.scoring.noise import STATUS_NAMES, Noise
 from scanner.scoring.results import Hotspot, VictimTotal, rounded, status_for
+from scanner.signoff.waiver_match import WaiverMatch
 
 #: Kb above which weak-coupling estimates lose accuracy and the exact simulation is run beside them
 STRONG_KB = 0.1
@@ -85,8 +86,12 @@ def with_exact_checks(hotspots: list[Hotspot], runs, envs, broadside_runs: np.nd
     return out
 
 
-def victim_totals(board, rules: Rules, roles: NetRoles, d: DirectedRuns, noise: Noise) -> list[VictimTotal]:
-    """Per victim over all its aggressors: worst-case sum and root-sum-square of the peaks."""
+def victim_totals(board, rules: Rules, roles: NetRoles, d: DirectedRuns, noise: Noise,
+                  waived: WaiverMatch | None = None) -> list[VictimTotal]:
+    """Per victim over all its aggressors: worst-case sum and root-sum-square of the peaks.
+
+    Contributions ``waived`` covers (per directed run; waivers from ``rules``) are left out of the totals and
+    the status, and reported beside them."""
     alive = np.flatnonzero(noise.alive)
     if len(alive) == 0:
         return []
@@ -94,28 +99,39 @@ def victim_totals(board, rules: Rules, roles: NetRoles, d: DirectedRuns, noise: 
     nets, group = np.unique(victim, return_inverse=True)
     group = group.ravel()
     next_abs, fext_abs = np.abs(noise.next_v[alive]) * 1e3, np.abs(noise.fext_v[alive]) * 1e3
-    worst_next = np.bincount(group, weights=next_abs)
-    worst_fext = np.bincount(group, weights=fext_abs)
-    rss_next = np.sqrt(np.bincount(group, weights=next_abs ** 2))
-    rss_fext = np.sqrt(np.bincount(group, weights=fext_abs ** 2))
+    covered = np.zeros(len(alive), dtype=bool) if waived is None else waived.covered[alive]
     cls = [roles.classes[c] for c in roles.class_index[nets]]
     nb = np.array([c.next_budget_v() for c in cls]) * 1e3
     fb = np.array([c.fext_budget_v() for c in cls]) * 1e3
     swing_mv = np.array([c.swing_v for c in cls]) * 1e3
-    basis = (worst_next, worst_fext) if rules.scan.budget_basis == "worst-case" else (rss_next, rss_fext)
-    used = np.maximum(basis[0] / nb, basis[1] / fb)
+    basis_worst = rules.scan.budget_basis == "worst-case"
+
+    def totals(weight):
+        worst = np.bincount(group, weights=next_abs * weight), np.bincount(group, weights=fext_abs * weight)
+        rss = (np.sqrt(np.bincount(group, weights=next_abs ** 2 * weight)),
+               np.sqrt(np.bincount(group, weights=fext_abs ** 2 * weight)))
+        basis = worst if basis_worst else rss
+        return worst, rss, np.maximum(basis[0] / nb, basis[1] / fb)
+
+    (worst_next, worst_fext), (rss_next, rss_fext), used = totals(~covered)
+    used_all = totals(np.ones(len(alive), dtype=bool))[2] if covered.any() else used
     # each victim's aggressors, most budget first
     order = np.lexsort((-noise.used[alive], group))
     bounds = np.searchsorted(group[order], np.arange(len(nets) + 1))
     out = []
     for g in np.argsort(-used, kind="stable"):
-        members = alive[order[bounds[g]:bounds[g + 1]]]
+        members = order[bounds[g]:bounds[g + 1]]
+        gone = members[covered[members]]
+        extra = {} if len(gone) == 0 else {
+            "waived_aggressors": [board.nets[int(a)] for a in d.aggressor[alive[gone]]],
+            "waivers": list(dict.fromkeys(rules.waivers[w].id for w in waived.waiver[alive[gone]].tolist())),
+            "budget_used_with_waived": rounded(used_all[g], 4),
+            "status_with_waived": status_for(used_all[g], rules.scan.warn_fraction)}
         out.append(VictimTotal(
             net=board.nets[int(nets[g])], net_class=cls[g].name, status=status_for(used[g], rules.scan.warn_fraction),
             next_worst_pct=rounded(100 * worst_next[g] / swing_mv[g]), fext_worst_pct=rounded(100 * worst_fext[g] / swing_mv[g]),
             next_rss_pct=rounded(100 * rss_next[g] / swing_mv[g]), fext_rss_pct=rounded(100 * rss_fext[g] / swing_mv[g]),
             next_worst_mv=rounded(worst_next[g]), fext_worst_mv=rounded(worst_fext[g]), next_budget_mv=rounded(nb[g]),
             fext_budget_mv=rounded(fb[g]), budget_used=rounded(used[g], 4),
-            aggressors=[board.nets[int(a)] for a in d.aggressor[members]]))
+            aggressors=[board.nets[int(a)] for a in d.aggressor[alive[members]]], **extra))
     return out
-

@@ -36,6 +36,11 @@ def rounded(x, digits: int = 3) -> float:
     return round(float(x), digits)
 
 
+def is_waived(waiver: dict | None) -> bool:
+    """A finding's waiver mark says a waiver is in force for it."""
+    return waiver is not None and waiver["state"] == "waived"
+
+
 def status_for(fraction: float, warn_fraction: float) -> str:
     """pass / warn / fail from the fraction of budget used."""
     if fraction > 1.0:
@@ -86,6 +91,12 @@ class Hotspot:
     direction: int  # index into the scan's directed runs
     fix: dict | None = None
     exact: dict | None = None  # exact line simulation of a strong-coupling finding
+    #: the waiver matching this finding: id, state (waived / lapsed), reason, who and when, note
+    waiver: dict | None = None
+
+    @property
+    def waived(self) -> bool:
+        return is_waived(self.waiver)
 
     def to_dict(self) -> dict:
         d = asdict(self)
@@ -109,6 +120,12 @@ class VictimTotal:
     fext_budget_mv: float
     budget_used: float
     aggressors: list[str]
+    #: with waivers: the aggressors whose contributions were waived (left out of the totals above), the
+    #: waivers that did it, and the budget used and status had they counted
+    waived_aggressors: list[str] = field(default_factory=list)
+    waivers: list[str] = field(default_factory=list)
+    budget_used_with_waived: float | None = None
+    status_with_waived: str | None = None
 
     def to_dict(self) -> dict:
         return asdict(self)
@@ -128,6 +145,7 @@ class ScanResult:
     warnings: list[str] = field(default_factory=list)
     runs: object = None  # scanner.coupling.runs.CoupledRuns, for overlays and waveforms
     piece_coefficients: object = None  # PieceCoefficients aligned with runs.pieces
+    lookup: object = None  # scanner.coupling.coefficients.CouplingLookup: layer environments and tables, for what-if plots
     summary: dict = field(default_factory=dict)
     #: what was checked: scanned_trace_fraction, layers[] (name, scanned, reference, reason), ...
     coverage: dict = field(default_factory=dict)
@@ -137,10 +155,14 @@ class ScanResult:
     #: this run's id and time, in report.json and named by every other file of the run
     run_id: str = field(default_factory=new_run_id)
     created: str = field(default_factory=utc_now)
+    #: every waiver given, with its state (scanner.signoff.waiver_match.waiver_states)
+    waivers: list[dict] = field(default_factory=list)
+    #: against a baseline report (scan --baseline): scanner.signoff.compare.compare_reports
+    comparison: dict | None = None
 
     @property
     def worst_status(self) -> str:
-        statuses = [v.status for v in self.victims] + [g.status for g in self.geometric]
+        statuses = [v.status for v in self.victims] + [g.status for g in self.geometric if not g.waived]
         statuses += [s.status for s in self.impedance.stretches] if self.impedance is not None else []
         for s in ("fail", "warn"):
             if s in statuses:
@@ -178,4 +200,5 @@ class ScanResult:
             "victims": [v.to_dict() for v in self.victims],
             "geometric": [g.to_dict() for g in self.geometric],
             "impedance": None if self.impedance is None else self.impedance.to_dict(),
-        }
+            "waivers": list(self.waivers),
+        } | ({} if self.comparison is None else {"comparison": self.comparison})

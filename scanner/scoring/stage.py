@@ -18,6 +18,7 @@ from scanner.scoring.fixes import fix_guidance
 from scanner.scoring.impedance import ImpedanceCheck
 from scanner.scoring.noise import Noise, listed_rows, score_noise
 from scanner.scoring.results import Hotspot, ScanResult, VictimTotal, rounded
+from scanner.signoff.waiver_marks import Waived, apply_waivers, mark_geometric, mark_hotspots
 
 
 @dataclass(frozen=True)
@@ -29,22 +30,27 @@ class Scored:
     hotspots: list[Hotspot]
     victims: list[VictimTotal]
     geometric: list[GeometricFinding]
+    waived: Waived
 
 
 def score_runs(board: Board, rules: Rules, roles: NetRoles, env: BoardEnvironments, coupled: CoupledSet) -> Scored:
-    """Directions, noise against budgets, fix guidance for warn/fail, records, victim totals, class-pair limits."""
+    """Directions, noise against budgets, class-pair limits, waivers, fix guidance for warn/fail, records,
+    victim totals (waived contributions left out)."""
     runs = coupled.runs
     directed = directed_runs(rules, roles, runs, coupled.kept)
     noise = score_noise(rules, roles, directed, runs, coupled.coefficients)
+    geometric = check_geometric_limits(rules, roles, runs, board)
+    waived = apply_waivers(rules.waivers, board, roles, directed, noise, geometric, runs)
     listed = listed_rows(noise, rules)
     c = coupled.coefficients
     fixes = fix_guidance(directed, listed[noise.status[listed] > 0], runs, coupled.lookup, board,
                          (c.kb, c.kf_s_per_m, c.velocity_m_per_s), coupled.broadside_runs)
     hotspots = hotspot_records(board, roles, env.signal, runs, directed, noise, listed, fixes, coupled.broadside_runs)
     hotspots = with_exact_checks(hotspots, runs, env.signal, coupled.broadside_runs)
-    victims = victim_totals(board, rules, roles, directed, noise)
-    geometric = check_geometric_limits(rules, roles, runs, board)
-    return Scored(directed, noise, hotspots, victims, geometric)
+    mark_hotspots(hotspots, rules.waivers, waived.directions)
+    victims = victim_totals(board, rules, roles, directed, noise, waived.directions)
+    geometric = mark_geometric(geometric, rules.waivers, waived.geometric, runs)
+    return Scored(directed, noise, hotspots, victims, geometric, waived)
 
 
 def build_result(board: Board, rules: Rules, roles: NetRoles, env: BoardEnvironments, coupled: CoupledSet,
@@ -70,9 +76,11 @@ def build_result(board: Board, rules: Rules, roles: NetRoles, env: BoardEnvironm
                   "broadside_layer_pairs": [f"{board.layers[a].name}/{board.layers[b].name}" for a, b in env.broadside],
                   "cross_section_solves": coupled.solves},
         hotspots=scored.hotspots, victims=scored.victims, geometric=scored.geometric, warnings=warnings,
-        runs=coupled.runs, piece_coefficients=coupled.coefficients,
+        runs=coupled.runs, piece_coefficients=coupled.coefficients, lookup=coupled.lookup,
         summary=_summary(scored.noise, scored.hotspots, scored.victims, coupled.runs, coupled.kept)
-        | {"list_floor": rules.scan.list_floor},
+        | {"list_floor": rules.scan.list_floor, "findings_waived": int(scored.waived.directions.covered.sum()),
+           "waivers_unused": sum(w["state"] == "unused" for w in scored.waived.states)},
+        waivers=scored.waived.states,
         coverage=coverage,
         unchecked=unchecked,
         impedance=impedance,

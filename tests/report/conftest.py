@@ -1,4 +1,10 @@
-"""Shared fixtures: the demo board scanned once, and one full ``nearfar scan --out`` run."""
+"""Shared fixtures: the demo board scanned once, and one full ``nearfar scan --out`` run.
+
+With ``NEARFAR_TEST_OUT`` set (``.ci/run`` sets it), the report folder is written to
+``$NEARFAR_TEST_OUT/demo-report`` and kept, so a reviewer can open the page and its screenshots.
+"""
+import os
+import shutil
 from pathlib import Path
 
 import pytest
@@ -29,7 +35,11 @@ def demo_scan():
 @pytest.fixture(scope="session")
 def report_dir(tmp_path_factory, scan_args) -> Path:
     """A report folder written by the command, images and page included."""
-    out = tmp_path_factory.mktemp("report") / "out"
+    if os.environ.get("NEARFAR_TEST_OUT"):
+        out = Path(os.environ["NEARFAR_TEST_OUT"]) / "demo-report"
+        shutil.rmtree(out, ignore_errors=True)
+    else:
+        out = tmp_path_factory.mktemp("report") / "out"
     run = CliRunner().invoke(cli, ["scan", *scan_args, "--out", str(out)])
     assert run.exception is None or isinstance(run.exception, SystemExit), run.output
     return out

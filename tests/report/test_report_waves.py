@@ -9,7 +9,7 @@ from scanner.coupling.finder import CoupledPieces
 from scanner.coupling.runs import build_runs
 from scanner.coupling.coefficients import PieceCoefficients
 from scanner.scoring.results import Hotspot
-from scanner.report.waveplot import ODD_MODE, finding_waveforms, wave_figure
+from scanner.report.waveplot import ODD_MODE, finding_waveforms, scenarios, wave_figure
 
 
 def test_plotted_peaks_agree_with_the_scan(demo_scan):
@@ -77,13 +77,14 @@ def test_uniform_run_gives_the_weak_coupling_shapes():
 def test_figure_shows_both_budgets_and_the_edge():
     result, board, h = uniform_run()
     fig = wave_figure(finding_waveforms(result, board, h), h)
-    main, edge = fig.axes
+    (main,) = fig.axes
     levels = sorted({round(y, 6) for line in main.lines for y in line.get_ydata()
                      if len(set(line.get_ydata())) == 1})
     for budget in (h.next_budget_mv, h.fext_budget_mv):
         assert budget in levels and -budget in levels
-    assert max(max(line.get_ydata()) for line in edge.lines) == pytest.approx(h.swing_v)
     low, high = main.get_ylim()
+    edge = next(line for line in main.lines if line.get_label().startswith("aggressor edge"))
+    assert f"0 to {h.swing_v:g} V" in edge.get_label() and max(edge.get_ydata()) == pytest.approx(0.8 * high)
     assert low <= -h.next_budget_mv and high >= h.next_budget_mv
 
 
@@ -94,3 +95,29 @@ def test_odd_mode_finding_names_the_member_its_run_belongs_to():
     assert waves.aggressor == "B"
     texts = " ".join(t.get_text() for t in wave_figure(waves, odd).texts)
     assert "run of B only" in texts and "combines both members" in texts
+
+
+def test_one_receiver_scenario_per_panel(demo_scan):
+    result, board = demo_scan
+    h = next(h for h in result.hotspots if h.termination == "high-z-receiver" and h.aggressor_model != ODD_MODE)
+    waves = finding_waveforms(result, board, h)
+    far, near = scenarios(waves)
+    assert "far end" in far.title and "near end" in near.title
+    # the receiver's own curve carries the table's figure; the victim's driver end sees the wave undoubled
+    # (an open input doubles an arriving wave, a matched source absorbs it: common practice)
+    receiver_far = next(c for c in far.curves if c[3])[0]
+    receiver_near = next(c for c in near.curves if c[3])[0]
+    assert receiver_far[np.argmax(np.abs(receiver_far))] * 1e3 == pytest.approx(h.fext_mv, rel=0.02, abs=2e-3)
+    assert np.abs(receiver_near).max() * 1e3 == pytest.approx(abs(h.next_mv), rel=0.02, abs=2e-3)
+    driver_near = next(c for c in far.curves if not c[3])[0]
+    assert np.abs(driver_near).max() == pytest.approx(np.abs(receiver_near).max() / 2, rel=1e-9)
+    fig = wave_figure(waves, h)
+    titles = [ax.get_title(loc="left") for ax in fig.axes if ax.get_title(loc="left")]
+    assert titles == [far.title, near.title]
+
+
+def test_a_matched_victim_has_one_scenario():
+    result, board, h = uniform_run()
+    waves = finding_waveforms(result, board, h)
+    (only,) = scenarios(waves)
+    assert "matched at both ends" in only.title and all(c[3] for c in only.curves)
