@@ -10,6 +10,7 @@ import traceback
 import click
 
 from scanner.errors import InputError, InternalError, being_read, printable
+from scanner.memory import out_of_memory_line
 from scanner.workspace import Stopped, raise_stopped
 
 #: exit status when nearfar itself fails (0 pass, 1 fail, 2 bad input, 3 incomplete come from the commands)
@@ -68,6 +69,9 @@ def main(argv=None) -> int:
     except click.ClickException as exc:
         exc.show()
         return _exit(exc.exit_code)
+    except MemoryError as exc:
+        click.echo(out_of_memory_line(exc), err=True)
+        return _exit(INTERNAL_ERROR)
     except OSError as exc:
         where = f"{exc.filename}: " if exc.filename else ""
         click.echo(f"nearfar: error: {printable(f'{where}{exc.strerror or exc}')}", err=True)

@@ -147,14 +147,21 @@ class OutputFolder:
                              path=self.shown) from None
         except OSError as exc:
             raise OSError(exc.errno, exc.strerror, str(self.shown)) from exc
-        try:
-            self._stage = WorkFolder(self.target.parent, staging_prefix(self.target))
-        except OSError as exc:  # it would name the staging folder, which the user never asked for
-            raise OSError(exc.errno, exc.strerror, str(self.shown)) from exc
-        self.path = self._stage.path
+        self._stage: WorkFolder | None = None
         self._committed = False
 
     def __enter__(self) -> "OutputFolder":
+        # a stop signal held while the staging folder is made acts once it is ours to remove
+        try:
+            with signals_held():
+                self._stage = WorkFolder(self.target.parent, staging_prefix(self.target))
+                self.path = self._stage.path
+        except OSError as exc:  # it would name the staging folder, which the user never asked for
+            raise OSError(exc.errno, exc.strerror, str(self.shown)) from exc
+        except BaseException:
+            if self._stage is not None:
+                self._stage.remove()
+            raise
         return self
 
     def __exit__(self, kind, exc, tb) -> bool:

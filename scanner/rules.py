@@ -10,19 +10,17 @@ import dataclasses
 from dataclasses import dataclass, field, asdict
 from pathlib import Path
 
-import numpy as np
-
 from scanner.board.model import Stackup, StackupLayer
 from scanner.errors import InputError, printable
-from scanner.patterns import compile_patterns
+from scanner.input_limits import check_range
+from scanner.patterns import compile_patterns, pattern_problem
+from scanner.physics.crosstalk import TERMINATIONS, receiver_gain
 from scanner.signoff.waivers import Waiver, parse_waivers
 from scanner.toml_input import read_toml
 
-TERMINATIONS = ("matched", "high-z-receiver")
 DIFF_AGGRESSOR_MODELS = ("two-lines", "odd-mode")
 BUDGET_BASES = ("worst-case", "rss")
-#: largest impedance target accepted (ohm); printed-circuit lines lie far below it
-MAX_IMPEDANCE_OHM = 1000.0
+PAIR_BY_GEOMETRY = ("unnamed-nets", "all-nets", "off")
 
 #: default power and ground patterns (common practice in net naming)
 DEFAULT_POWER_PATTERNS = ("GND*", "*_GND", "AGND*", "DGND*", "PGND*", "VSS*", "VCC*", "VDD*", "VBUS", "+*")
@@ -58,12 +56,6 @@ class NetClass:
 
     def fext_budget_v(self) -> float:
         return _budget_v(self.fext_budget_mv, self.fext_budget_pct, self.swing_v)
-
-
-def receiver_gain(termination: str) -> float:
-    """What a victim's receiver makes of an arriving noise wave: an open (high-impedance) input
-    doubles it (reflection coefficient +1); a matched end takes it as it is."""
-    return 2.0 if termination == "high-z-receiver" else 1.0
 
 
 def _budget_v(mv, pct, swing_v) -> float:
@@ -125,6 +117,7 @@ class ScanSettings:
     budget_basis: str = "worst-case"
     differential_aggressor: str = "two-lines"
     auto_diff_pairs: bool = True
+    pair_by_geometry: str = "unnamed-nets"
     #: stretches outside an impedance target shorter than this are counted, not listed (pad neck-downs)
     impedance_min_length_mm: float = 1.0
     skip_layers: tuple[str, ...] = ()  # copper layer names left out of the search (the verdict is then incomplete)
@@ -185,6 +178,7 @@ _CLASS_KEYS = {
 _SCAN_KEYS = {
     "search_distance_mm": float, "min_coupled_length_mm": float, "angle_tolerance_deg": float,
     "warn_fraction": float, "list_floor": float, "budget_basis": str, "differential_aggressor": str, "auto_diff_pairs": bool,
+    "pair_by_geometry": str,
     "impedance_min_length_mm": float,
     "skip_layers": list,
 }
@@ -194,6 +188,16 @@ _PAIR_KEYS = {
     "next_budget_mv": float, "fext_budget_mv": float, "max_parallel_mm": float, "within_spacing_mm": float,
 }
 _TOP_KEYS = {"scan", "class", "power", "diff_pair", "stackup", "planes", "class_pair", "waiver"}
+#: the physical range (scanner.input_limits.RANGES) of each number key; stackup thickness goes by the layer's kind
+_RANGE_OF = {
+    "search_distance_mm": "search distance", "within_spacing_mm": "search distance",
+    "min_coupled_length_mm": "coupled length", "max_parallel_mm": "coupled length",
+    "angle_tolerance_deg": "angle tolerance", "warn_fraction": "fraction of budget", "list_floor": "fraction of budget",
+    "rise_time_ns": "rise time", "swing_v": "swing", "next_budget_pct": "budget share",
+    "fext_budget_pct": "budget share", "next_budget_mv": "noise budget", "fext_budget_mv": "noise budget",
+    "epsilon_r": "relative permittivity", "z0_target_ohm": "impedance", "zdiff_target_ohm": "impedance",
+    "impedance_tolerance_pct": "impedance tolerance", "impedance_min_length_mm": "impedance check length",
+}
 
 
 def load_rules(path: str | Path | None) -> Rules:
@@ -211,20 +215,12 @@ def parse_rules(doc: dict, source: str) -> Rules:
     if unknown:
         raise bad(f"unknown key(s) {', '.join(sorted(unknown))}; allowed: {', '.join(sorted(_TOP_KEYS))}")
 
-    scan_kw = _typed(doc.get("scan", {}), _SCAN_KEYS, "[scan]", bad)
+    scan_kw = _typed(doc.get("scan", {}), _SCAN_KEYS, "[scan]", bad, source)
     _check_choice(scan_kw.get("budget_basis"), BUDGET_BASES, "[scan] budget_basis", bad)
     _check_choice(scan_kw.get("differential_aggressor"), DIFF_AGGRESSOR_MODELS, "[scan] differential_aggressor", bad)
-    for key in ("search_distance_mm", "min_coupled_length_mm"):
-        if key in scan_kw and not scan_kw[key] > 0:
-            raise bad(f"[scan] {key} must be positive")
-    if "angle_tolerance_deg" in scan_kw and not 0 < scan_kw["angle_tolerance_deg"] < 45:
-        raise bad("[scan] angle_tolerance_deg must be between 0 and 45")
-    if "warn_fraction" in scan_kw and not 0 < scan_kw["warn_fraction"] <= 1:
-        raise bad("[scan] warn_fraction must be in (0, 1]")
-    if "list_floor" in scan_kw and not 0 <= scan_kw["list_floor"] <= 1:
-        raise bad("[scan] list_floor must be in [0, 1]")
-    if "impedance_min_length_mm" in scan_kw and not 0 <= scan_kw["impedance_min_length_mm"] <= 1000:
-        raise bad("[scan] impedance_min_length_mm must be in [0, 1000]")
+    if "warn_fraction" in scan_kw and not scan_kw["warn_fraction"] > 0:
+        raise bad("[scan] warn_fraction must be more than 0")
+    _check_choice(scan_kw.get("pair_by_geometry"), PAIR_BY_GEOMETRY, "[scan] pair_by_geometry", bad)
     if "skip_layers" in scan_kw:
         names = scan_kw["skip_layers"]
         if not all(isinstance(n, str) and n for n in names):
@@ -238,24 +234,14 @@ def parse_rules(doc: dict, source: str) -> Rules:
         raise bad("[[class]] must be an array of tables")
     for i, raw in enumerate(raw_classes):
         where = f"[[class]] #{i + 1}"
-        kw = _typed(raw, _CLASS_KEYS, where, bad)
+        kw = _typed(raw, _CLASS_KEYS, where, bad, source)
         if "name" not in kw or "nets" not in kw:
             raise bad(f"{where} needs 'name' and 'nets'")
         patterns = kw.pop("nets")
         if not patterns or not all(isinstance(p, str) and p for p in patterns):
             raise bad(f"{where} 'nets' must be a list of name patterns")
-        for key in ("rise_time_ns", "swing_v"):
-            if key in kw and not kw[key] > 0:
-                raise bad(f"{where} {key} must be positive")
-        for key in ("next_budget_pct", "fext_budget_pct", "next_budget_mv", "fext_budget_mv"):
-            if key in kw and not kw[key] > 0:
-                raise bad(f"{where} {key} must be positive")
+        _check_patterns(patterns, f"{where} nets", bad)
         _check_choice(kw.get("termination"), TERMINATIONS, f"{where} termination", bad)
-        for key in ("z0_target_ohm", "zdiff_target_ohm"):
-            if key in kw and not 0 < kw[key] <= MAX_IMPEDANCE_OHM:
-                raise bad(f"{where} {key} must be above 0 and at most {MAX_IMPEDANCE_OHM:g} ohm")
-        if "impedance_tolerance_pct" in kw and not 0 < kw["impedance_tolerance_pct"] < 100:
-            raise bad(f"{where} impedance_tolerance_pct must be between 0 and 100")
         if "next_budget_mv" in kw and "next_budget_pct" not in kw:
             kw["next_budget_pct"] = None
         if "fext_budget_mv" in kw and "fext_budget_pct" not in kw:
@@ -271,6 +257,7 @@ def parse_rules(doc: dict, source: str) -> Rules:
     power_nets = power.get("nets", [])
     if not isinstance(power_nets, list) or not all(isinstance(p, str) for p in power_nets):
         raise bad("[power] nets must be a list of name patterns")
+    _check_patterns(power_nets, "[power] nets", bad)
     replace = power.get("replace_defaults", False)
     if not isinstance(replace, bool):
         raise bad("[power] replace_defaults must be true or false")
@@ -287,6 +274,7 @@ def parse_rules(doc: dict, source: str) -> Rules:
             raise bad(f"[[diff_pair]] #{i + 1} patterns must be strings")
         if raw["positive"].count("*") != raw["negative"].count("*"):
             raise bad(f"[[diff_pair]] #{i + 1} positive and negative need the same number of '*'")
+        _check_patterns(raw.values(), f"[[diff_pair]] #{i + 1}", bad)
         pairs.append((raw["positive"], raw["negative"]))
 
     planes = doc.get("planes", [])
@@ -295,9 +283,9 @@ def parse_rules(doc: dict, source: str) -> Rules:
 
     stackup = None
     if "stackup" in doc:
-        stackup = dataclasses.replace(_parse_stackup(doc["stackup"], bad), path=source)
+        stackup = dataclasses.replace(_parse_stackup(doc["stackup"], bad, source), path=source)
 
-    class_pairs = _parse_class_pairs(doc.get("class_pair", []), set(names) | {DEFAULT_CLASS.name}, bad)
+    class_pairs = _parse_class_pairs(doc.get("class_pair", []), set(names) | {DEFAULT_CLASS.name}, bad, source)
 
     return Rules(classes=tuple(classes), power_patterns=power_patterns, diff_pairs=tuple(pairs), scan=scan,
                  stackup=stackup, planes=tuple(planes), class_pairs=class_pairs,
@@ -306,26 +294,22 @@ def parse_rules(doc: dict, source: str) -> Rules:
 
 def parse_stackup_table(raw, source: str) -> Stackup:
     """A ``[stackup]`` table (``layers`` top to bottom), checked as in the rules file; errors name ``source``."""
-    return _parse_stackup(raw, lambda msg: InputError(msg, source))
+    return _parse_stackup(raw, lambda msg: InputError(msg, source), source)
 
 
-def _parse_class_pairs(raw, class_names: set[str], bad) -> tuple[ClassPairRule, ...]:
+def _parse_class_pairs(raw, class_names: set[str], bad, source: str) -> tuple[ClassPairRule, ...]:
     if not isinstance(raw, list):
         raise bad("[[class_pair]] must be an array of tables")
     out = []
     seen = set()
     for i, item in enumerate(raw):
         where = f"[[class_pair]] #{i + 1}"
-        kw = _typed(item, _PAIR_KEYS, where, bad)
+        kw = _typed(item, _PAIR_KEYS, where, bad, source)
         for key in ("aggressor_class", "victim_class"):
             if key not in kw:
                 raise bad(f"{where} needs '{key}'")
             if kw[key] not in class_names:
                 raise bad(f"{where} {key} '{kw[key]}' is not a class name ({', '.join(sorted(class_names))})")
-        for key in ("next_budget_pct", "fext_budget_pct", "next_budget_mv", "fext_budget_mv",
-                    "max_parallel_mm", "within_spacing_mm"):
-            if key in kw and not kw[key] > 0:
-                raise bad(f"{where} {key} must be positive")
         if ("max_parallel_mm" in kw) != ("within_spacing_mm" in kw):
             raise bad(f"{where} a geometric limit needs both max_parallel_mm and within_spacing_mm")
         rule = ClassPairRule(**kw)
@@ -339,25 +323,25 @@ def _parse_class_pairs(raw, class_names: set[str], bad) -> tuple[ClassPairRule, 
     return tuple(out)
 
 
-def _parse_stackup(raw, bad) -> Stackup:
+def _parse_stackup(raw, bad, source: str) -> Stackup:
     if not isinstance(raw, dict) or set(raw) != {"layers"} or not isinstance(raw["layers"], list):
         raise bad("[stackup] takes one key, 'layers', a list of tables top to bottom")
     layers = []
     copper = 0
     for i, item in enumerate(raw["layers"]):
         where = f"[stackup] layer #{i + 1}"
-        kw = _typed(item, _STACK_KEYS, where, bad)
+        kw = _typed(item, _STACK_KEYS, where, bad, source)
         kind = kw.get("kind")
         _check_choice(kind, ("copper", "dielectric", "soldermask"), f"{where} kind", bad)
         if kind is None:
             raise bad(f"{where} needs 'kind'")
         t = kw.get("thickness_mm")
-        if t is None or not 0 < t < 10:
-            raise bad(f"{where} thickness_mm must be given and between 0 and 10 mm")
+        if t is None:
+            raise bad(f"{where} needs thickness_mm")
+        check_range(f"{kind} thickness", t, f"{where} thickness_mm", source)
         er = kw.get("epsilon_r")
-        if kind != "copper":
-            if er is None or not 1.0 <= er <= 100:
-                raise bad(f"{where} epsilon_r must be given and between 1 and 100")
+        if kind != "copper" and er is None:
+            raise bad(f"{where} needs epsilon_r")
         layers.append(StackupLayer(kind=kind, name=kw.get("name", f"{kind}{i + 1}"), thickness_mm=t,
                                    epsilon_r=er if kind != "copper" else None,
                                    copper_index=copper if kind == "copper" else None))
@@ -367,7 +351,7 @@ def _parse_stackup(raw, bad) -> Stackup:
     return Stackup(layers=tuple(layers), source="rules")
 
 
-def _typed(raw, schema: dict, where: str, bad) -> dict:
+def _typed(raw, schema: dict, where: str, bad, source: str) -> dict:
     if not isinstance(raw, dict):
         raise bad(f"{where} must be a table")
     out = {}
@@ -379,10 +363,16 @@ def _typed(raw, schema: dict, where: str, bad) -> dict:
             value = float(value) if abs(value) < 2 ** 1023 else float("inf")  # refused below as not finite
         if not isinstance(value, want) or (want is not bool and isinstance(value, bool)):
             raise bad(f"{where}: '{key}' must be {want.__name__}, got {type(value).__name__}")
-        if want is float and not np.isfinite(value):
-            raise bad(f"{where}: '{key}' must be finite")
+        if key in _RANGE_OF:
+            check_range(_RANGE_OF[key], value, f"{where} {key}", source)
         out[key] = value
     return out
+
+
+def _check_patterns(patterns, where: str, bad) -> None:
+    for pattern in patterns:
+        if (problem := pattern_problem(pattern)) is not None:
+            raise bad(f"{where}: {problem}")
 
 
 def _check_choice(value, choices, where, bad):

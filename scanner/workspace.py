@@ -123,8 +123,11 @@ class WorkFolder:
 def unpack_folder():
     """A private folder in the system's temporary folder to unpack an archive into, removed on the way out
     (exception, SIGINT or SIGTERM); one left by a killed run is removed by the next run that unpacks."""
-    folder = WorkFolder(Path(tempfile.gettempdir()), UNPACK_PREFIX)
+    folder = None
     try:
+        with signals_held():  # a stop signal that comes while the folder is made acts once it is ours to remove
+            folder = WorkFolder(Path(tempfile.gettempdir()), UNPACK_PREFIX)
         yield folder.path
     finally:
-        folder.remove()
+        if folder is not None:
+            folder.remove()

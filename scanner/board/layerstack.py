@@ -21,6 +21,7 @@ from dataclasses import dataclass, field
 
 from scanner.board.model import Board, CopperLayer, CopperShapes, Holes, Stackup, StackupLayer, TraceSegments
 from scanner.errors import InputError
+from scanner.input_limits import range_problem
 
 #: stated default when nothing gives a stackup: a typical symmetric FR-4 class build (common practice;
 #: the figures are typical fabricator values, from memory): 1.6 mm up to 12 copper layers, thicker above
@@ -89,6 +90,10 @@ def default_stackup(copper_count: int) -> Stackup:
     outer, inner, laminate = _default_dielectrics(copper_count)
     gaps = copper_count - 1
     sm_t, sm_er = DEFAULT_SOLDERMASK
+    if range_problem("dielectric thickness", inner, "") is not None:
+        raise InputError(f"board has {copper_count} copper layers, too many to assume the default "
+                         f"{_by_count(DEFAULT_TOTAL_THICKNESS_MM, copper_count)} mm stackup; give a job file or a "
+                         "[stackup] in the rules")
     layers = [StackupLayer("soldermask", "top mask", sm_t, sm_er)]
     for i in range(copper_count):
         edge = i in (0, copper_count - 1)

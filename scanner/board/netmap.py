@@ -16,6 +16,8 @@ from scipy.sparse import coo_matrix
 from scipy.sparse.csgraph import connected_components
 
 from scanner.board.model import NO_NET, Board, CopperLayer, Holes, NetFault, Netting
+from scanner.memory import stage
+from scanner.spatial_query import check_index_memory, query_all
 
 #: synthetic names look like ``~L03@12.345,67.890`` (layer number, x, y in mm)
 SYNTHETIC_PREFIX = "~"
@@ -50,7 +52,13 @@ class Features:
         return len(self.geometry)
 
 
+#: bytes of one trace grown to its width (a capsule of about ten points) with its index entry
+BYTES_PER_CAPSULE = 500
+
+
 def collect_features(layers: list[CopperLayer]) -> Features:
+    segments = sum(len(layer.segments) for layer in layers)
+    check_index_memory(segments, BYTES_PER_CAPSULE, "trace segments grown to their width for the net map")
     geoms, layer_ids, nets, is_seg, items, starts = [], [], [], [], [], [0]
     for k, layer in enumerate(layers):
         s = layer.segments
@@ -96,11 +104,9 @@ def exact_touch(a: np.ndarray, b: np.ndarray) -> np.ndarray:
     return shapely.intersects(first, second)
 
 
-def _candidates(tree: shapely.STRtree, geoms: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+def _candidates(tree: shapely.STRtree, geoms: np.ndarray, what: str) -> tuple[np.ndarray, np.ndarray]:
     """(query, tree) index pairs whose boxes overlap and whose shapes touch."""
-    q, t = tree.query(geoms)
-    ok = exact_touch(geoms[q], tree.geometries[t])
-    return q[ok], t[ok]
+    return query_all(tree, geoms, what, keep=lambda q, t: exact_touch(geoms[q], tree.geometries[t]))
 
 
 def _touching_pairs(features: Features) -> tuple[np.ndarray, np.ndarray, list]:
@@ -113,12 +119,14 @@ def _touching_pairs(features: Features) -> tuple[np.ndarray, np.ndarray, list]:
         trees.append(tree)
         if hi - lo < 2:
             continue
-        q, t = tree.query(geoms)
-        keep = q < t
-        q, t = q[keep], t[keep]
-        ok = exact_touch(geoms[q], geoms[t])
-        a_parts.append(q[ok] + lo)
-        b_parts.append(t[ok] + lo)
+        def touching(q, t, geoms=geoms):
+            upper = q < t
+            upper[upper] = exact_touch(geoms[q[upper]], geoms[t[upper]])
+            return upper
+
+        q, t = query_all(tree, geoms, f"touching copper on layer {k + 1} ({hi - lo:,} features)", keep=touching)
+        a_parts.append(q + lo)
+        b_parts.append(t + lo)
     cat = (lambda p: np.concatenate(p) if p else np.zeros(0, dtype=np.int64))
     return cat(a_parts), cat(b_parts), trees
 
@@ -132,7 +140,7 @@ def _hole_pairs(features: Features, trees: list, holes: Holes) -> tuple[np.ndarr
                            quad_segs=HOLE_QUAD_SEGS)
     h_parts, f_parts = [], []
     for k, tree in enumerate(trees):
-        h, f = _candidates(tree, disks)
+        h, f = _candidates(tree, disks, f"plated holes on layer {k + 1}")
         h_parts.append(plated[h])
         f_parts.append(f + features.layer_start[k])
     return np.concatenate(h_parts), np.concatenate(f_parts)
@@ -162,7 +170,7 @@ def _locate_points(board: Board, features: Features, trees: list, hole_labels: n
         on_layer = np.flatnonzero((pts.layer == k) | (pts.layer < 0))
         if not len(on_layer):
             continue
-        p, f = _candidates(tree, geoms[on_layer])
+        p, f = _candidates(tree, geoms[on_layer], f"netlist points on layer {k + 1}")
         p_parts.append(on_layer[p])
         i_parts.append(feature_labels[f + features.layer_start[k]])
     through = np.flatnonzero(pts.layer < 0)
@@ -170,7 +178,9 @@ def _locate_points(board: Board, features: Features, trees: list, hole_labels: n
     if len(through) and len(plated):
         disks = shapely.buffer(shapely.points(board.holes.x[plated], board.holes.y[plated]),
                                board.holes.diameter[plated] / 2, quad_segs=HOLE_QUAD_SEGS)
-        p, h = shapely.STRtree(disks).query(geoms[through], predicate="intersects")
+        points = geoms[through]
+        p, h = query_all(shapely.STRtree(disks), points, "netlist points in plated holes",
+                         keep=lambda q, t: shapely.intersects(points[q], disks[t]))
         p_parts.append(through[p])
         i_parts.append(hole_labels[plated[h]])
     if not p_parts:
@@ -201,8 +211,10 @@ def assign_nets(board: Board, named_source: str = "gerber-x2") -> Board:
 
     ``named_source`` is the netting method reported when the copper already carries net names
     (the format that named it, e.g. "gerber-x2" or "odbpp-eda")."""
-    features = collect_features(board.layers)
-    feature_labels, hole_labels, trees = copper_islands(features, board.holes)
+    with stage("joining copper into nets", f"{board.segment_count:,} trace segments, "
+               f"{sum(len(layer.shapes) for layer in board.layers):,} shapes, {len(board.holes):,} holes"):
+        features = collect_features(board.layers)
+        feature_labels, hole_labels, trees = copper_islands(features, board.holes)
     n_islands = int(max(feature_labels.max(initial=-1), hole_labels.max(initial=-1)) + 1)
 
     names = list(board.nets)

@@ -1,87 +1,122 @@
-"""Net roles: each net's class, whether it takes part (power and plane nets do not), its differential partner."""
+"""Net roles: each net's class, whether it takes part (power and plane nets do not), its differential partner.
+
+Partners come from the net names and the rules (here) and, for nets named from copper
+connectivity, from the routed geometry once the coupled pieces are known
+(``scanner.coupling.stage.find_pieces``). A rules pattern that matches no net is a warning
+naming the nearest net names: a mistyped pattern must not silently leave nets in the
+default class.
+"""
 from __future__ import annotations
 
+import difflib
 import re
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
+from scanner.board.netmap import is_synthetic
+from scanner.board.pairing import SOURCES, name_pairs, pattern_pairs
 from scanner.patterns import compile_patterns
-from scanner.rules import DEFAULT_CLASS, NetClass, Rules
+from scanner.rules import DEFAULT_CLASS, DEFAULT_POWER_PATTERNS, NetClass, Rules
 
-#: suffix conventions recognised for automatic differential pairing: (positive, negative)
-DIFF_SUFFIXES = (("_P", "_N"), ("+", "-"), ("_DP", "_DN"), ("_T", "_C"))
+ROLES = ("signal", "power", "plane")
+#: nearest names quoted for a pattern that matches no net, and the least similarity to quote one
+NEAREST_NAMES = 5
+NEAREST_SIMILARITY = 0.6
 
 
 @dataclass(frozen=True)
 class NetRoles:
-    """Per-net facts the finder and scorer need, as arrays indexed by net id."""
+    """Per-net facts the finder and scorer need, as arrays indexed by net id; ``warnings`` about the rules' patterns."""
 
-    class_index: np.ndarray  # index into the class list (len(classes) means the default class)
+    class_index: np.ndarray  # index into the class list (len(classes) - 1 is the default class)
     active: np.ndarray  # bool: takes part as aggressor and victim
     partner: np.ndarray  # differential partner net id or -1
     polarity: np.ndarray  # +1 positive member, -1 negative member, 0 single-ended
     classes: tuple[NetClass, ...]
+    role: np.ndarray  # index into ROLES
+    pair_source: np.ndarray  # index into pairing.SOURCES, -1 for single-ended nets
+    warnings: tuple[str, ...] = ()
+
+    def with_pairs(self, pairs: list[tuple[int, int]], source: str) -> "NetRoles":
+        """These roles with (positive, negative) pairs added; nets already paired keep their partner."""
+        partner, polarity, pair_source = self.partner.copy(), self.polarity.copy(), self.pair_source.copy()
+        code = SOURCES.index(source)
+        for p, n in pairs:
+            if p != n and partner[p] < 0 and partner[n] < 0:
+                partner[p], partner[n] = n, p
+                polarity[p], polarity[n] = 1, -1
+                pair_source[p] = pair_source[n] = code
+        return replace(self, partner=partner, polarity=polarity, pair_source=pair_source)
+
+    def pairs(self, net_names: list[str]) -> list[dict]:
+        """Every differential pair: ``p`` and ``n`` net names and the ``source`` that paired them."""
+        positive = np.flatnonzero((self.partner >= 0) & (self.polarity > 0))
+        return [{"p": net_names[i], "n": net_names[int(self.partner[i])], "source": SOURCES[int(self.pair_source[i])]}
+                for i in positive.tolist()]
+
+    def net_table(self, net_names: list[str]) -> list[dict]:
+        """Every net with its class, role and partner (None when single-ended)."""
+        return [{"name": name, "class": self.classes[int(c)].name, "role": ROLES[int(r)],
+                 "pair": None if p < 0 else net_names[int(p)], "pair_source": None if p < 0 else SOURCES[int(s)]}
+                for name, c, r, p, s in zip(net_names, self.class_index.tolist(), self.role.tolist(),
+                                            self.partner.tolist(), self.pair_source.tolist())]
 
 
 def assign_roles(net_names: list[str], rules: Rules, plane_nets: set[str] = frozenset()) -> NetRoles:
-    """Classify nets: class, power/ground (inactive), differential partner."""
+    """Classify nets: class, power/ground/plane (inactive), differential partner by rules and by name."""
     classes = tuple(rules.classes) + (DEFAULT_CLASS,)
     n = len(net_names)
-    class_rx = [compile_patterns(c.patterns) for c in rules.classes]
-    power_rx = compile_patterns(rules.power_patterns)
+    upper = [name.upper() for name in net_names]
     class_index = np.full(n, len(classes) - 1, dtype=np.int32)
-    active = np.ones(n, dtype=bool)
-    for i, name in enumerate(net_names):
-        upper = name.upper()
-        for k, rx in enumerate(class_rx):
-            if rx.match(upper):
-                class_index[i] = k
-                break
-        if power_rx.match(upper) or name in plane_nets:
-            active[i] = False
-    partner = np.full(n, -1, dtype=np.int32)
-    polarity = np.zeros(n, dtype=np.int8)
-    index = {name: i for i, name in enumerate(net_names)}
-    for pos_name, neg_name in _pairs(net_names, rules, index):
-        p, q = index[pos_name], index[neg_name]
-        if partner[p] < 0 and partner[q] < 0:
-            partner[p], partner[q] = q, p
-            polarity[p], polarity[q] = 1, -1
-    return NetRoles(class_index, active, partner, polarity, classes)
-
-
-def _pairs(net_names, rules: Rules, index: dict):
-    for pos_pat, neg_pat in rules.diff_pairs:
-        for name in net_names:
-            m = _pattern_capture(pos_pat, name)
-            if m is None:
-                continue
-            other = _fill(neg_pat, m)
-            if other in index:
-                yield name, other
+    for k in reversed(range(len(rules.classes))):  # the first class in file order wins
+        rx = compile_patterns(rules.classes[k].patterns)
+        hit = np.fromiter((rx.match(u) is not None for u in upper), dtype=bool, count=n)
+        class_index[hit] = k
+    power_rx = compile_patterns(rules.power_patterns)
+    role = np.zeros(n, dtype=np.int8)
+    role[np.fromiter((power_rx.match(u) is not None for u in upper), dtype=bool, count=n)] = ROLES.index("power")
+    role[np.fromiter((name in plane_nets for name in net_names), dtype=bool, count=n)] = ROLES.index("plane")
+    active = role == 0
+    roles = NetRoles(class_index, active, np.full(n, -1, dtype=np.int32), np.zeros(n, dtype=np.int8), classes,
+                     role, np.full(n, -1, dtype=np.int8), tuple(unmatched_pattern_warnings(net_names, rules)))
+    roles = roles.with_pairs([(p, q) for p, q in pattern_pairs(net_names, rules.diff_pairs) if active[p] and active[q]],
+                             "rules")
     if rules.scan.auto_diff_pairs:
-        for name in net_names:
-            for pos_sfx, neg_sfx in DIFF_SUFFIXES:
-                if name.upper().endswith(pos_sfx) and len(name) > len(pos_sfx):
-                    other = name[: -len(pos_sfx)] + _same_case(neg_sfx, name[-len(pos_sfx):])
-                    if other in index:
-                        yield name, other
+        named = active & np.fromiter((not is_synthetic(name) for name in net_names), dtype=bool, count=n)
+        roles = roles.with_pairs(name_pairs(net_names, named), "name")
+    return roles
 
 
-def _same_case(suffix: str, like: str) -> str:
-    return suffix.lower() if like.islower() else suffix
-
-
-def _pattern_capture(pattern: str, name: str):
-    rx = "^" + re.escape(pattern).replace(r"\*", "(.*)") + "$"
-    m = re.match(rx, name, flags=re.IGNORECASE)
-    return None if m is None else m.groups()
-
-
-def _fill(pattern: str, groups) -> str:
-    parts = pattern.split("*")
-    out = parts[0]
-    for g, rest in zip(groups, parts[1:]):
-        out += g + rest
+def unmatched_pattern_warnings(net_names: list[str], rules: Rules) -> list[str]:
+    """One warning per class, power or pair pattern of the rules file that matches no net."""
+    if not net_names:
+        return []
+    upper = sorted({name.upper() for name in net_names})
+    checks = [(f"net class '{c.name}'", p) for c in rules.classes for p in c.patterns]
+    checks += [("[power] nets", p) for p in rules.power_patterns if p not in DEFAULT_POWER_PATTERNS]
+    checks += [("[[diff_pair]] positive", pos) for pos, _ in rules.diff_pairs]
+    out = []
+    for where, pattern in checks:
+        rx = compile_patterns((pattern,))
+        if any(rx.match(u) for u in upper):
+            continue
+        near = nearest_names(pattern, net_names)
+        hint = f"; nearest net names: {', '.join(near)}" if near else "; no net name is close"
+        out.append(f"{where} pattern '{pattern}' matches no net{hint}")
     return out
+
+
+def nearest_names(pattern: str, net_names: list[str], count: int = NEAREST_NAMES) -> list[str]:
+    """Net names most like a wildcard pattern: its literal start and end compared with each name's."""
+    parts = re.split(r"[*?]", pattern.upper())
+    head, tail = parts[0], parts[-1] if len(parts) > 1 else ""
+    matcher = difflib.SequenceMatcher(autojunk=False)
+    matcher.set_seq2(head + tail)
+    scored = []
+    for name in dict.fromkeys(net_names):
+        u = name.upper()
+        matcher.set_seq1(u if len(parts) == 1 else u[:len(head)] + (u[-len(tail):] if tail else ""))
+        if matcher.real_quick_ratio() >= NEAREST_SIMILARITY and matcher.ratio() >= NEAREST_SIMILARITY:
+            scored.append((-matcher.ratio(), name))
+    return [name for _, name in sorted(scored)[:count]]

@@ -12,16 +12,22 @@ from scanner.board.model import Board
 from scanner.board.references import describe_reference, plane_evidence
 from scanner.commands.options import stackup_option, stackup_override
 from scanner.errors import InputError
+from scanner.pipeline import board_roles
+from scanner.rules import Rules, load_rules
 from scanner.report.files import json_text
 
-#: faults quoted on the terminal (all of them are in --json)
+#: faults, pairs and nets quoted on the terminal (all of them are in --json)
 SHOWN_FAULTS = 10
+SHOWN_PAIRS = 40
+SHOWN_NETS = 60
 
 
-def inspect_data(board: Board) -> dict:
-    """The board summary as plain data (the ``--json`` output)."""
+def inspect_data(board: Board, rules: Rules | None = None) -> dict:
+    """The board summary as plain data (the ``--json`` output): layers, stackup, netting, and every net with
+    its class, role and differential partner as a scan with these rules would take them."""
     netting = board.netting
     references = layer_references(board)
+    roles = board_roles(board, rules)
     return {
         "name": board.name,
         "source": board.source,
@@ -56,7 +62,9 @@ def inspect_data(board: Board) -> dict:
             "shorts": [_fault(f) for f in netting.shorts],
             "opens": [_fault(f) for f in netting.opens],
         },
-        "warnings": list(board.warnings),
+        "pairs": roles.pairs(board.nets),
+        "net_list": roles.net_table(board.nets),
+        "warnings": list(roles.warnings) + list(board.warnings),
     }
 
 
@@ -89,7 +97,7 @@ def _table(header: tuple, rows: list[tuple], right: set[int]) -> list[str]:
                       for i, (c, w) in enumerate(zip(r, widths))).rstrip() for r in [header] + rows]
 
 
-def render_inspect(data: dict) -> str:
+def render_inspect(data: dict, all_nets: bool = False) -> str:
     out = [f"board {data['name']} ({data['format']}) from {data['source']}", ""]
     rows = [(l["name"], l["side"], l["kind"], l["kind_source"], l["segments"], f"{l['trace_length_mm']:.1f}",
              l["shapes"], "-" if l["fill_ratio"] is None else f"{100 * l['fill_ratio']:.0f}%",
@@ -132,9 +140,31 @@ def render_inspect(data: dict) -> str:
                            f"{' on ' + f['layer'] if f['layer'] else ''}: {f['detail']}")
             if len(n[kind]) > SHOWN_FAULTS:
                 out.append(f"  ... {len(n[kind]) - SHOWN_FAULTS} more {kind} (see --json)")
+    out += _pair_lines(data["pairs"]) + _net_lines(data["net_list"], all_nets)
     if data["warnings"]:
         out += ["", "warnings:"] + [f"  {w}" for w in data["warnings"]]
     return "\n".join(out)
+
+
+def _pair_lines(pairs: list[dict]) -> list[str]:
+    if not pairs:
+        return ["", "differential pairs: none"]
+    out = ["", f"differential pairs ({len(pairs)}; never scored against each other):"]
+    out += ["  " + line for line in _table(("positive", "negative", "found by"),
+                                           [(p["p"], p["n"], p["source"]) for p in pairs[:SHOWN_PAIRS]], set())]
+    if len(pairs) > SHOWN_PAIRS:
+        out.append(f"  ... {len(pairs) - SHOWN_PAIRS} more pairs (see --json)")
+    return out
+
+
+def _net_lines(nets: list[dict], all_nets: bool) -> list[str]:
+    shown = nets if all_nets else nets[:SHOWN_NETS]
+    rows = [(n["name"], n["class"], n["role"], "" if n["pair"] is None else f"{n['pair']} ({n['pair_source']})")
+            for n in shown]
+    out = ["", f"nets ({len(nets)}):"] + ["  " + line for line in _table(("net", "class", "role", "pair"), rows, set())]
+    if len(nets) > len(shown):
+        out.append(f"  ... {len(nets) - len(shown)} more nets (--all-nets, or see --json)")
+    return out
 
 
 @click.command("inspect")
@@ -142,16 +172,22 @@ def render_inspect(data: dict) -> str:
 @click.option("--json", "as_json", is_flag=True, help="Print the summary as JSON instead of tables.")
 @click.option("--board-file", type=click.Path(path_type=Path), default=None,
               help="Board description (TOML): copper files in stack order, planes, netlist, drills.")
+@click.option("--rules", "rules_path", type=click.Path(path_type=Path), default=None,
+              help="Rules file (TOML) whose classes, power nets and pairs to apply; defaults without one.")
+@click.option("--all-nets", is_flag=True, help=f"List every net on the terminal (the first {SHOWN_NETS} otherwise).")
 @click.option("--step", default=None, metavar="NAME", help="The step of an ODB++ job to read, when it has several.")
 @stackup_option
-def command(board, as_json, board_file, stackup_path, step):
+def command(board, as_json, board_file, rules_path, all_nets, stackup_path, step):
     """Show what nearfar reads from BOARD (a folder, .zip, or ODB++ job .tgz): copper layers in stack order, planes
-    and the evidence for each, the outline, copper left out, nets, stackup, how well the copper matched the netlist,
-    and parser warnings. With --stackup, the stackup shown is the file's (checked against the board's copper layers)."""
+    and the evidence for each, the outline, copper left out, nets with their class, role and differential partner, stackup, how well the copper matched the netlist, and
+    warnings (parser warnings, rules patterns that match no net). With --stackup, the stackup shown is the file's
+    (checked against the board's copper layers)."""
+    rules = load_rules(rules_path)
     the_board = load_board(board, board_file=board_file, step=step)
     if stackup_path is not None:
         stackup, _ = effective_stackup(the_board, stackup_override(stackup_path))
         the_board = dataclasses.replace(the_board, stackup=stackup)
-    data = inspect_data(the_board)
-    click.echo(json_text(data, "inspect --json", indent=2) if as_json else render_inspect(data), nl=not as_json)
+    data = inspect_data(the_board, rules)
+    click.echo(json_text(data, "inspect --json", indent=2) if as_json else render_inspect(data, all_nets),
+               nl=not as_json)
     return 0

@@ -11,6 +11,7 @@ import click
 from scanner import load_board, scan
 from scanner.commands.options import stackup_option, stackup_override
 from scanner.errors import InputError
+from scanner.memory import stage
 from scanner.outputs import check_output_folder, replace_file
 from scanner.report.files import report_json
 from scanner.report.folder import write_report_folder
@@ -86,7 +87,8 @@ def command(board, rules_path, board_file, stackup_path, out_dir, top, as_json, 
     report = report_json(result)  # every value checked before anything is written or printed
     if out_dir is not None:
         progress(f"writing reports to {out_dir}")
-        write_report_folder(result, the_board, out_dir, images=not no_images)
+        with stage(f"writing reports to {out_dir}", f"{the_board.segment_count:,} trace segments"):
+            write_report_folder(result, the_board, out_dir, images=not no_images)
     if junit_path is not None:
         replace_file(junit_path, junit_xml(result, time.perf_counter() - started))
     if as_json:

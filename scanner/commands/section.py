@@ -12,11 +12,35 @@ from scanner.commands.options import stackup_option, stackup_override
 from scanner.coupling.coefficients import section_arguments
 from scanner.physics import (WEAK_COUPLING_LIMIT, Soldermask, coupling_coefficients, piecewise_peaks,
                              saturation_length_m, solve_cross_section, traces_on_layer, weak_coupling_holds)
+from scanner.input_limits import check_finite, check_range
+from scanner.physics.crosstalk import TERMINATIONS
+from scanner.rules import DEFAULT_CLASS
 from scanner.units import M_PER_MM, S_PER_NS
 
-_POSITIVE = click.FloatRange(min=0, min_open=True)
 PLOT_FORMATS = (".png", ".svg", ".pdf")
 PLOT_DPI = 150
+
+
+class Physical(click.ParamType):
+    """A number within its physical range (scanner.input_limits.RANGES); outside it, one line and exit status 2."""
+
+    name = "number"
+
+    def __init__(self, kind: str, zero_allowed: bool = False):
+        self.kind = kind
+        self.zero_allowed = zero_allowed
+
+    def convert(self, value, param, ctx):
+        if isinstance(value, float):
+            return value
+        try:
+            number = float(value)
+        except ValueError:
+            self.fail(f"{value!r} is not a number", param, ctx)
+        if self.zero_allowed and number == 0:
+            return 0.0
+        return check_range(self.kind, number, param.opts[0] if param else self.kind)
+
 
 
 def _gaps(widths, spacings):
@@ -94,7 +118,15 @@ def _copper_index(copper, text: str, option: str) -> int:
                            f"({', '.join(s.name for s in copper)}, or 1-{len(copper)})")
 
 
-def section_data(section, aggressor: int, victim: int, rise_time_ns, length_mm, swing_v, receiver) -> dict:
+#: where each figure is read, per victim termination (the scan's model, docs/physics.md "Terminations")
+RECEIVER_ENDS = {
+    "matched": ("at the victim's matched near end", "at the victim's matched far end"),
+    "high-z-receiver": ("at a high-impedance receiver on the aggressor's driver end (victim driven from the far end)",
+                        "at a high-impedance receiver on the far end (victim driven from the same end)"),
+}
+
+
+def section_data(section, aggressor: int, victim: int, rise_time_ns, length_mm, swing_v, termination) -> dict:
     """Everything the command reports, as plain data (SI unless the key says otherwise)."""
     m = solve_cross_section(section)
     n = m.count
@@ -121,8 +153,8 @@ def section_data(section, aggressor: int, victim: int, rise_time_ns, length_mm, 
                     saturation_length_mm=float(saturation_length_m(m.velocity(aggressor), rise_s)) / M_PER_MM)
         if n >= 2 and length_mm is not None:
             noise = piecewise_peaks([data["kb"]], [data["kf_s_per_m"]], [length_mm * M_PER_MM],
-                                    [m.velocity(aggressor)], rise_s, swing_v, far_end_receiver=receiver)
-            data.update(length_mm=length_mm, swing_v=swing_v, far_end_receiver=receiver,
+                                    [m.velocity(aggressor)], rise_s, swing_v, termination=termination)
+            data.update(length_mm=length_mm, swing_v=swing_v, termination=termination,
                         next_v=noise.next_v, fext_v=noise.fext_v)
     return data
 
@@ -145,38 +177,42 @@ def render_section(data: dict) -> str:
     if data["saturation_length_mm"] is not None:
         lines.append(f"saturation length at {data['rise_time_ns']} ns: {data['saturation_length_mm']:.1f} mm")
     if data["next_v"] is not None:
-        lines.append(f"over {data['length_mm']} mm, {data['swing_v']} V swing, {data['far_end_receiver']} receiver: "
-                     f"NEXT {data['next_v'] * 1e3:.1f} mV, FEXT {data['fext_v'] * 1e3:.1f} mV")
+        near, far = RECEIVER_ENDS[data["termination"]]
+        lines += [f"over {data['length_mm']} mm, {data['swing_v']} V swing, victim termination {data['termination']}:",
+                  f"  NEXT {data['next_v'] * 1e3:.1f} mV {near}",
+                  f"  FEXT {data['fext_v'] * 1e3:.1f} mV {far}"]
     lines.append("Estimates from a lossless quasi-static model: confirm critical nets by measurement or full "
                  "simulation.")
     return "\n".join(lines)
 
 
 @click.command("section")
-@click.option("--width", "widths", type=_POSITIVE, multiple=True, required=True,
+@click.option("--width", "widths", type=Physical("trace width"), multiple=True, required=True,
               help="Trace width in mm; repeat for each trace, left to right (one width and a spacing: a pair).")
-@click.option("--spacing", "spacings", type=_POSITIVE, multiple=True,
+@click.option("--spacing", "spacings", type=Physical("edge spacing"), multiple=True,
               help="Edge-to-edge gap in mm between neighbouring traces; one value applies to every gap.")
-@click.option("--copper", type=click.FloatRange(min=0), default=0.035, show_default=True,
+@click.option("--copper", type=Physical("copper thickness", zero_allowed=True), default=0.035, show_default=True,
               help="Copper thickness in mm (0: zero-thickness strips).")
-@click.option("--height-below", type=_POSITIVE, help="Dielectric from the plane to the trace, mm.")
-@click.option("--er-below", type=click.FloatRange(min=1), default=4.2, show_default=True,
+@click.option("--height-below", type=Physical("dielectric thickness"), help="Dielectric from the plane to the trace, mm.")
+@click.option("--er-below", type=Physical("relative permittivity"), default=4.2, show_default=True,
               help="Relative permittivity of the dielectric below the trace.")
-@click.option("--height-above", type=_POSITIVE,
+@click.option("--height-above", type=Physical("dielectric thickness"),
               help="Dielectric above the trace base, mm: up to the upper plane (stripline) or a cover layer.")
-@click.option("--er-above", type=click.FloatRange(min=1), help="Its relative permittivity (default: --er-below).")
+@click.option("--er-above", type=Physical("relative permittivity"), help="Its relative permittivity (default: --er-below).")
 @click.option("--planes", type=click.Choice(["below", "both"]),
               help="Reference planes: 'below' (microstrip) or 'both' (stripline); default from --height-above.")
-@click.option("--mask", type=_POSITIVE, help="Soldermask thickness in mm over a microstrip.")
-@click.option("--mask-er", type=click.FloatRange(min=1), default=3.5, show_default=True,
+@click.option("--mask", type=Physical("soldermask thickness"), help="Soldermask thickness in mm over a microstrip.")
+@click.option("--mask-er", type=Physical("relative permittivity"), default=3.5, show_default=True,
               help="Soldermask relative permittivity.")
 @click.option("--aggressor", type=click.IntRange(min=0), default=0, show_default=True, help="Aggressor trace index.")
 @click.option("--victim", type=click.IntRange(min=0), default=1, show_default=True, help="Victim trace index.")
-@click.option("--rise-time", "rise_time_ns", type=_POSITIVE, help="Aggressor 10-90 % rise time in ns.")
-@click.option("--length", "length_mm", type=_POSITIVE, help="Coupled length in mm (needs --rise-time).")
-@click.option("--swing", "swing_v", type=_POSITIVE, default=1.0, show_default=True, help="Aggressor swing in V.")
-@click.option("--receiver", type=click.Choice(["matched", "high_z"]), default="matched", show_default=True,
-              help="Victim far-end termination.")
+@click.option("--rise-time", "rise_time_ns", type=Physical("rise time"), help="Aggressor 10-90 % rise time in ns.")
+@click.option("--length", "length_mm", type=Physical("coupled length"), help="Coupled length in mm (needs --rise-time).")
+@click.option("--swing", "swing_v", type=Physical("swing"), default=1.0, show_default=True, help="Aggressor swing in V.")
+@click.option("--termination", type=click.Choice(TERMINATIONS), default=DEFAULT_CLASS.termination, show_default=True,
+              help="Victim terminations, as a net class's 'termination' in the rules file: both ends matched, or a "
+                   "matched driver at one end and a high-impedance receiver at the other (the worse of the two "
+                   "ends is taken for each figure, as the scan does).")
 @stackup_option
 @click.option("--layer", help="With --stackup: the copper layer to solve (its name in the stackup, or its number "
                               "from 1 at the top).")
@@ -187,7 +223,7 @@ def render_section(data: dict) -> str:
               help="Also draw the cross-section to scale into this file (.png, .svg or .pdf).")
 @click.pass_context
 def command(ctx, widths, spacings, copper, height_below, er_below, height_above, er_above, planes, mask, mask_er,
-            aggressor, victim, rise_time_ns, length_mm, swing_v, receiver, stackup_path, layer, plane_layers, as_json,
+            aggressor, victim, rise_time_ns, length_mm, swing_v, termination, stackup_path, layer, plane_layers, as_json,
             plot_path):
     """Solve one cross-section: L and C matrices, impedances, Kb and Kf, and NEXT/FEXT for a coupled length.
 
@@ -208,7 +244,11 @@ def command(ctx, widths, spacings, copper, height_below, er_below, height_above,
         raise click.UsageError("--length needs --rise-time")
     if plot_path is not None and Path(plot_path).suffix.lower() not in PLOT_FORMATS:
         raise click.UsageError(f"--plot: give a file name ending in {', '.join(PLOT_FORMATS)}")
-    data = section_data(section, aggressor, victim, rise_time_ns, length_mm, swing_v, receiver)
+    with np.errstate(all="ignore"):
+        data = section_data(section, aggressor, victim, rise_time_ns, length_mm, swing_v, termination)
+    check_finite(np.concatenate([np.ravel(v) for v in data.values()
+                                 if isinstance(v, (int, float, list)) and not isinstance(v, bool)]),
+                 "cross-section results")
     if where is not None:
         data["layer"] = where
     if plot_path is not None:

@@ -41,11 +41,14 @@ import numpy as np
 import shapely
 
 from scanner.board.model import NO_NET, TraceSegments
+from scanner.memory import check_memory
+from scanner.spatial_query import check_index_memory, query_chunks
 
 #: facing lengths and trims shorter than this are treated as zero (mm)
 LENGTH_EPS_MM = 1e-6
-#: segments queried per chunk; bounds the candidate-pair arrays to tens of MB
-QUERY_CHUNK = 32_768
+#: bytes of one indexed segment box (the geometry), and of one facing pair kept through de-duplication
+BYTES_PER_BOX = 300
+BYTES_PER_KEPT_PAIR = 200
 
 @dataclass(frozen=True)
 class CoupledPieces:
@@ -288,13 +291,12 @@ def _layer_pairs(seg: TraceSegments, g: _Segs, rows: np.ndarray, search_mm: floa
                  partner: np.ndarray | None, side: np.ndarray | None = None) -> tuple[_Pairs, np.ndarray, np.ndarray]:
     """Candidate pairs from the index, filtered to different, non-partner nets facing in parallel within reach
     (and, given ``side``, only pairs of segments on different sides)."""
+    check_index_memory(len(rows), BYTES_PER_BOX, "trace segments for the coupled-run search")
     boxes = _candidate_boxes(seg, rows, search_mm)
     tree = shapely.STRtree(boxes)
     parts, lows, highs = [], [], []
-    for start in range(0, len(rows), QUERY_CHUNK):
-        q = tree.query(boxes[start:start + QUERY_CHUNK])
-        i = q[0] + start
-        j = q[1]
+    kept = 0
+    for i, j in query_chunks(tree, boxes, f"coupled-run search over {len(rows):,} trace segments"):
         upper = j > i
         a, b = rows[i[upper]], rows[j[upper]]
         na, nb = g.net[a], g.net[b]
@@ -314,6 +316,11 @@ def _layer_pairs(seg: TraceSegments, g: _Segs, rows: np.ndarray, search_mm: floa
         parts.append(p.take(keep))
         lows.append(lo[keep])
         highs.append(hi[keep])
+        kept += int(keep.sum())
+        check_memory(int(keep.sum()) * BYTES_PER_KEPT_PAIR, f"keeping {kept:,} facing pairs of trace segments")
+    if not parts:
+        p = _pair_geometry(g, rows[:0], rows[:0], np.zeros(0), search_mm)
+        return p, np.zeros(0), np.zeros(0)
     merged = _Pairs(*(np.concatenate([getattr(p, k) for p in parts])
                       for k in _Pairs.__dataclass_fields__))
     return merged, np.concatenate(lows), np.concatenate(highs)

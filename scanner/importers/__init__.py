@@ -13,6 +13,7 @@ from scanner.errors import InputError, printable
 from scanner.importers.odbpp.archive import TAR_SUFFIXES, extract_job_archive
 from scanner.importers.registry import choose, discover
 from scanner.importers.sources import list_sources
+from scanner.memory import stage
 from scanner.workspace import unpack_folder
 
 __all__ = ["load_board"]
@@ -66,7 +67,8 @@ def _load_folder(root: Path, board_file: Path | None, step: str | None, where: s
             raise InputError(f"--step names a step of an ODB++ job; these files are read as {importer.name}",
                              path=where)
         importer.step = step
-    board = importer.load(root, files, board_file=board_file)
+    with stage(f"reading {where}", f"{len(files)} files, {sum(f.path.stat().st_size for f in files):,} bytes"):
+        board = importer.load(root, files, board_file=board_file)
     board.source = where
     if not board.name:
         board.name = _archive_stem(Path(where).name) if Path(where).is_file() else Path(where).name

@@ -2,6 +2,7 @@
 from __future__ import annotations
 
 import dataclasses
+import math
 
 import numpy as np
 import shapely
@@ -12,8 +13,10 @@ from gerbonara.apertures import ApertureMacroInstance, PolygonAperture
 from gerbonara.utils import MM
 
 from scanner.importers import thermal
+from scanner.errors import InputError
 from scanner.importers.arcs import flatten_arcs, ring_points
-from scanner.input_limits import coordinate_problem
+from scanner.importers.crossings import self_meetings
+from scanner.input_limits import range_problem
 
 thermal.register()
 
@@ -23,6 +26,8 @@ QUAD_SEGS = 8
 POLYGON_VERTICES = (3, 12)
 #: rings of a moire macro primitive (a deprecated target mark; real ones have a handful)
 MAX_MOIRE_RINGS = 100
+#: primitives one aperture macro may draw (real macros have a few; each is merged into the outline)
+MAX_MACRO_PRIMITIVES = 1000
 
 
 def arc_poly_polygon(outline, arc_centers) -> shapely.Geometry:
@@ -43,10 +48,37 @@ def arc_poly_polygon(outline, arc_centers) -> shapely.Geometry:
     ring = ring_points(points, cw, cx, cy)
     if len(ring) < 3:
         return shapely.Polygon()
+    _check_repair_cost(ring)
     poly = shapely.Polygon(ring)
     if not shapely.is_valid(poly):
         poly = shapely.make_valid(poly, method="structure", keep_collapsed=False)
     return poly
+
+
+#: outlines with at most this many vertices are checked and repaired by GEOS directly (cheap at any tangle)
+DIRECT_REPAIR_VERTICES = 256
+#: an outline may meet itself at most at this many points, or at as many as it has vertices if more: beyond,
+#: checking and repairing it (GEOS) would cost far more than linear time
+MIN_MEETINGS_REPAIRED = 10_000
+#: candidate edge pairs examined per vertex (plus a fixed allowance) before an outline counts as too tangled
+PAIRS_PER_VERTEX = 50
+PAIRS_ALLOWANCE = 5_000_000
+
+
+def _check_repair_cost(ring: np.ndarray) -> None:
+    """InputError for an outline that meets itself too often to be checked and repaired in about linear time."""
+    n = len(ring)
+    if n <= DIRECT_REPAIR_VERTICES:
+        return
+    most = max(MIN_MEETINGS_REPAIRED, n)
+    found, complete = self_meetings(ring, most, PAIRS_PER_VERTEX * n + PAIRS_ALLOWANCE)
+    where = f"outline of {n:,} points starting at ({ring[0, 0]:.4f}, {ring[0, 1]:.4f}) mm"
+    if not complete:
+        raise InputError(f"{where} is too tangled to check: its edges overlap in more than "
+                         f"{PAIRS_PER_VERTEX * n + PAIRS_ALLOWANCE:,} pairs")
+    if found > most:
+        raise InputError(f"{where} crosses or touches itself at more than {most:,} points; a real outline "
+                         "crosses itself a few times at most (the file is damaged or hostile)")
 
 
 def primitive_geometry(prim) -> shapely.Geometry:
@@ -71,9 +103,9 @@ def primitive_geometry(prim) -> shapely.Geometry:
 
 
 def aperture_problem(aperture) -> str | None:
-    """Why flashing ``aperture`` cannot give real copper (too many vertices or rings, absurd size, a shape
-    the parser cannot draw); None if it can. Checked when the aperture is defined, counts first so that
-    no huge outline is ever built."""
+    """Why flashing ``aperture`` cannot give real copper (too many vertices, rings or primitives, a size that is
+    negative, not a number or beyond the physical range, a shape the parser cannot draw); None if it can.
+    Checked when the aperture is defined, counts first so that no huge outline is ever built."""
     counts = []
     if isinstance(aperture, PolygonAperture):
         counts.append(("polygon vertices", aperture.n_vertices, *POLYGON_VERTICES))
@@ -91,17 +123,36 @@ def aperture_problem(aperture) -> str | None:
         primitives = aperture.flash(0.0, 0.0, MM, True)
     except Exception as exc:  # noqa: BLE001 - gerbonara 1.5 fails on some macro primitives (moire)
         return f"aperture D{aperture.original_number} cannot be drawn ({type(exc).__name__}: {exc})"
-    largest = max((_largest(getattr(p, f.name)) for p in primitives for f in dataclasses.fields(p)), default=0.0)
-    return coordinate_problem(largest)
+    if len(primitives) > MAX_MACRO_PRIMITIVES:
+        return (f"aperture D{aperture.original_number} is made of {len(primitives)} primitives, more than "
+                f"{MAX_MACRO_PRIMITIVES}")
+    what = f"aperture D{aperture.original_number} size"
+    for prim in primitives:
+        for f in dataclasses.fields(prim):
+            values = _numbers(getattr(prim, f.name))
+            if values and f.name in _SIZE_FIELDS and (problem := range_problem("aperture size", min(values), what)):
+                return problem
+    try:
+        corners = np.array([prim.bounding_box() for prim in primitives], dtype=np.float64).reshape(-1, 2)
+    except (TypeError, ValueError):  # a primitive without points (an empty outline) has no box
+        corners = np.array([[math.nan, math.nan]])
+    if len(corners):
+        extent = max(float(np.ptp(corners[:, 0])), float(np.ptp(corners[:, 1])), float(np.abs(corners).max()))
+        return range_problem("aperture size", extent if np.isfinite(corners).all() else math.nan, what)
+    return None
 
 
-def _largest(value) -> float:
-    """Largest magnitude among the numbers in a primitive's field (nested tuples and lists of points)."""
+#: primitive fields holding a size (radius, width, height), which cannot be negative
+_SIZE_FIELDS = {"r", "w", "h", "width"}
+
+
+def _numbers(value) -> list[float]:
+    """The numbers in a primitive's field (nested tuples and lists of points); NaN stays NaN."""
     if isinstance(value, (int, float)) and not isinstance(value, bool):
-        return abs(value)
+        return [float(value)]
     if isinstance(value, (list, tuple)):
-        return max(map(_largest, value), default=0.0)
-    return 0.0
+        return [v for item in value for v in _numbers(item)]
+    return []
 
 
 def aperture_outline(aperture) -> shapely.Geometry:

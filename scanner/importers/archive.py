@@ -1,4 +1,9 @@
-"""Safe extraction of a board archive (.zip) into a temporary folder."""
+"""Safe extraction of a board archive (.zip) into a temporary folder.
+
+Every member is checked before it is extracted: its path, its kind, its declared size (against the
+file-size limit and, added up, the archive limit) and how far it expands (compression ratio). Members
+are copied in chunks, never held in memory whole, and the running total is checked as they are written.
+"""
 from __future__ import annotations
 
 import stat
@@ -6,11 +11,34 @@ import zipfile
 from pathlib import Path, PurePosixPath
 
 from scanner.errors import InputError
+from scanner.input_limits import FILE_MB, limit
 
 #: limits on what one archive may expand to
 MAX_EXPANDED_BYTES = 500 * 1024 * 1024
 MAX_ENTRIES = 5000
+#: how many times larger than its compressed size a member (or a compressed tar archive) may expand;
+#: fabrication text compresses 3 to 30 times, a bomb of repeated bytes about a thousand times
+MAX_RATIO = 200
+#: members smaller than this may expand further (tiny files compress oddly)
+RATIO_FROM_BYTES = 1 << 20
 _CHUNK = 1 << 20
+
+
+def expansion_problem(expanded: int, compressed: int, what: str) -> str | None:
+    """Why ``expanded`` bytes from ``compressed`` look like a bomb, or None."""
+    if expanded > RATIO_FROM_BYTES and expanded > MAX_RATIO * max(compressed, 1):
+        return (f"{what} expands {expanded / max(compressed, 1):,.0f} times ({expanded:,} bytes from {compressed:,}), "
+                f"more than the {MAX_RATIO} times fabrication files do")
+    return None
+
+
+def member_size_problem(size: int, what: str) -> str | None:
+    """Why a member of ``size`` bytes cannot be an input file (larger than the file-size limit), or None."""
+    most = limit(FILE_MB) * 2**20
+    if size > most:
+        return (f"{what} is {size:,} bytes, larger than the file-size limit of {most // 2**20} MB "
+                f"(raise it with {FILE_MB[0]})")
+    return None
 
 
 def _checked_member(info: zipfile.ZipInfo, archive: str) -> PurePosixPath | None:
@@ -25,6 +53,10 @@ def _checked_member(info: zipfile.ZipInfo, archive: str) -> PurePosixPath | None
         raise InputError(f"archive entry {info.filename!r} is a symbolic link", path=archive)
     if info.is_dir():
         return None
+    what = f"archive entry {info.filename!r}"
+    if (problem := member_size_problem(info.file_size, what) or
+            expansion_problem(info.file_size, info.compress_size, what)) is not None:
+        raise InputError(problem, path=archive)
     return path
 
 

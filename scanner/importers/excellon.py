@@ -24,7 +24,7 @@ from scanner.board.model import Holes, NO_NET
 from scanner.errors import InputError, reading
 from scanner.importers.diagnostics import FileWarnings
 from scanner.importers.gerber_copper import PARSER_ERRORS, CheckedObjects, _split_location
-from scanner.input_limits import coordinate_problem, read_input
+from scanner.input_limits import OBJECTS, check_count, limit, range_problem, read_input
 
 _NON_PLATED_NAME = re.compile(r"npth|non[-_ ]?plated|unplated|nplt|np[-_.]", re.I)
 _PLATED_NAME = re.compile(r"pth|plated|plt", re.I)
@@ -61,9 +61,9 @@ class _DrillObjects(CheckedObjects):
 
     def append(self, obj):
         tool = obj.aperture
-        if (problem := coordinate_problem(tool.unit.convert_to(MM, abs(tool.diameter)) if tool.unit
-                                          else abs(tool.diameter))) is not None:
-            raise ValueError(f"tool diameter: {problem}")
+        diameter = tool.unit.convert_to(MM, tool.diameter) if tool.unit else tool.diameter
+        if (problem := range_problem("drill diameter", diameter, "tool diameter")) is not None:
+            raise ValueError(problem)
         super().append(obj)
 
 
@@ -290,6 +290,7 @@ def _drill_file(path: Path, text: str, drills: _DrillParser, plated: bool | None
 
     xs, ys, ds, mixed = [], [], [], []
     slots = 0
+    most = limit(OBJECTS)
     for obj in drills.objects:
         unit = obj.unit or drills.settings.unit
         to_mm = unit.convert_to(MM, 1.0) if unit is not None else 1.0
@@ -305,6 +306,8 @@ def _drill_file(path: Path, text: str, drills: _DrillParser, plated: bool | None
             for line in pieces:
                 x0, y0, x1, y1 = (v * to_mm for v in (line.x1, line.y1, line.x2, line.y2))
                 n = int(np.ceil(np.hypot(x1 - x0, y1 - y0) / max(dia / 2, 1e-3))) + 1
+                if len(xs) + n > most:
+                    check_count(len(xs) + n, OBJECTS, "holes (routed slots counted as rows of holes)", name)
                 t = np.linspace(0.0, 1.0, n)
                 xs.extend(x0 + (x1 - x0) * t)
                 ys.extend(y0 + (y1 - y0) * t)

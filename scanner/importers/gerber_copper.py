@@ -18,6 +18,8 @@ from scanner.importers.apertures import (QUAD_SEGS, aperture_outline, aperture_p
 from scanner.importers.arcs import flatten_arcs
 from scanner.importers.diagnostics import FileWarnings
 from scanner.input_limits import OBJECTS, SEGMENTS, check_count, coordinate_problem, limit, read_input
+from scanner.memory import check_memory, stage
+from scanner.spatial_query import check_index_memory, query_all
 
 #: draws shorter than this (mm) are flashes in disguise and become pads
 ZERO_LENGTH_MM = 1e-6
@@ -93,9 +95,24 @@ class CheckedObjects(list):
     def append(self, obj):
         if len(self) >= self._most:
             check_count(len(self) + 1, OBJECTS, self._what)
+        if len(self) % MEMORY_CHECK_EVERY == MEMORY_CHECK_EVERY - 1:
+            check_parse_memory(len(self) + 1, self._what)
         if (problem := coordinate_problem(extent_mm(obj))) is not None:
             raise ValueError(problem)
         super().append(obj)
+
+
+#: objects (and region points) parsed between two checks of the memory still free
+MEMORY_CHECK_EVERY = 65_536
+#: bytes one parsed object or region point takes, through to the copper built from it (measured: about
+#: 400 parsed and 150 to 1,200 built, a placed circular pad the most; rounded up)
+BYTES_PER_PARSED_OBJECT = 2_000
+
+
+def check_parse_memory(count: int, what: str) -> None:
+    """Refuse to go on parsing when the next batch of objects, and the copper built from them, would not fit."""
+    check_memory(MEMORY_CHECK_EVERY * BYTES_PER_PARSED_OBJECT,
+                 f"reading more than {count:,} {what} (about {BYTES_PER_PARSED_OBJECT:,} bytes each)")
 
 
 class _ObjectList(CheckedObjects):
@@ -170,6 +187,14 @@ class _CopperParser(GerberParser):
         if self.current_region is not None:
             raise ValueError("file ends inside a region (G36 without its G37)")
         super()._parse_eof(match)
+
+    def _parse_coord(self, match):
+        if self.current_region is not None and len(self.current_region.outline) % MEMORY_CHECK_EVERY == 0:
+            points = len(self.current_region.outline) + 1
+            if points > limit(SEGMENTS):
+                check_count(points, SEGMENTS, "points in one region", line=self.lineno)
+            check_parse_memory(points, "points of one region")
+        super()._parse_coord(match)
 
     def _parse_step_repeat(self, match):
         if match["coords"]:
@@ -272,7 +297,7 @@ def _translated(template: shapely.Geometry, x: np.ndarray, y: np.ndarray) -> np.
 
 def read_copper(path: Path, display_name: str | None = None) -> CopperArtwork:
     """Read one copper file into segments and shapes with net names (X2) where present."""
-    with reading(display_name or path):
+    with reading(display_name or path), stage(f"reading {display_name or path}", f"{path.stat().st_size:,} bytes"):
         gerber, log = parse_gerber(path, display_name)
         try:
             art = artwork_from_gerber(path, gerber, log)
@@ -374,11 +399,17 @@ def _draws_to_segments(draws, order, scale, log, outlines) -> dict:
             width[idx] = swept_width_mm(outlines(ap), x1[idx] - x0[idx], y1[idx] - y0[idx])
             log.add(f"line drawn with non-circular aperture D{ap.original_number}: "
                     "width taken as the aperture's extent across the draw")
+    zero = np.hypot(x1 - x0, y1 - y0) < ZERO_LENGTH_MM
+    thin = np.flatnonzero((width <= 0) & conductor & np.asarray(dark, dtype=bool) & ~zero)
+    if len(thin):
+        ap = apert[thin[0]]
+        raise InputError(f"{len(thin):,} conductor draw(s) with zero-size aperture D{ap.original_number}, the "
+                         f"first from ({x0[thin[0]]:.4f}, {y0[thin[0]]:.4f}) mm: a draw needs a width (a zero-size "
+                         "aperture draws nothing)")
     nets_arr = np.empty(n, dtype=object)
     nets_arr[:] = nets
     dark = np.asarray(dark, dtype=bool)
     ords = np.asarray(ords, dtype=np.int64)
-    zero = np.hypot(x1 - x0, y1 - y0) < ZERO_LENGTH_MM
     as_shapes = []
     special = np.flatnonzero(zero | ~conductor | ~dark)
     for i in special:
@@ -395,10 +426,24 @@ def _draws_to_segments(draws, order, scale, log, outlines) -> dict:
             "order": ords, "dark": keep_dark, "as_shapes": as_shapes}
 
 
+#: bytes per placed copy of an outline: its points three times over (template offsets, moved points, the
+#: geometry) and the geometry object itself
+BYTES_PER_PLACED_POINT = 48
+BYTES_PER_PLACED_SHAPE = 500
+
+
+def placing_bytes(copies: int, points: int) -> int:
+    """Memory to place ``copies`` copies of an outline of ``points`` points."""
+    return copies * (points * BYTES_PER_PLACED_POINT + BYTES_PER_PLACED_SHAPE)
+
+
 def _flashes_to_shapes(flashes, order, scale, outlines, builder, log):
     groups: dict[int, list[int]] = {}
     for i, f in enumerate(flashes):
         groups.setdefault(id(f.aperture), []).append(i)
+    needed = sum(placing_bytes(len(idx), shapely.get_num_coordinates(outlines(flashes[idx[0]].aperture)))
+                 for idx in groups.values())
+    check_memory(needed, f"placing {len(flashes):,} flashes of {len(groups):,} apertures")
     for idx in groups.values():
         ap = flashes[idx[0]].aperture
         template = outlines(ap)
@@ -453,7 +498,8 @@ def _cut_clear(geometry, orders, clear, clear_order):
     if not len(geometry):
         return geometry
     tree = shapely.STRtree(geometry)
-    clear_idx, dark_idx = tree.query(clear, predicate="intersects")
+    clear_idx, dark_idx = query_all(tree, clear, f"{len(clear):,} clear objects over {len(geometry):,} shapes",
+                                    keep=lambda q, t: shapely.intersects(clear[q], geometry[t]))
     earlier = orders[dark_idx] < clear_order[clear_idx]
     clear_idx, dark_idx = clear_idx[earlier], dark_idx[earlier]
     if not len(dark_idx):
@@ -471,11 +517,13 @@ def _warn_cleared_traces(seg, clear, clear_order, log):
     dark = seg["dark"]
     if not dark.any():
         return
+    check_index_memory(int(dark.sum()), BYTES_PER_PLACED_SHAPE, "traces under clear objects")
     lines = shapely.buffer(shapely.linestrings(
         np.stack([np.column_stack([seg["x0"][dark], seg["y0"][dark]]),
                   np.column_stack([seg["x1"][dark], seg["y1"][dark]])], axis=1)), seg["width"][dark] / 2, quad_segs=2)
     tree = shapely.STRtree(lines)
-    clear_idx, line_idx = tree.query(clear, predicate="intersects")
+    clear_idx, line_idx = query_all(tree, clear, f"{len(clear):,} clear objects over {len(lines):,} traces",
+                                    keep=lambda q, t: shapely.intersects(clear[q], lines[t]))
     hit = np.unique(line_idx[seg["order"][dark][line_idx] < clear_order[clear_idx]])
     if len(hit):
         log.add(f"{len(hit)} trace segment(s) drawn dark and later partly cleared by clear-polarity objects; "

@@ -15,7 +15,7 @@ from pathlib import Path
 import numpy as np
 
 from scanner.errors import InputError, printable
-from scanner.input_limits import OBJECTS, check_count, coordinate_problem, read_input
+from scanner.input_limits import OBJECTS, RANGES, check_count, check_range, coordinate_problem, read_input
 from scanner.units import MM_PER_INCH
 
 #: mm per coordinate count for each ``P  UNITS`` value (inch files count 0.0001 in, metric 0.001 mm)
@@ -108,9 +108,13 @@ def read_ipc356(path: Path, display_name: str | None = None) -> NetlistRecords:
     check_count(len(rows), OBJECTS, "netlist points", name)
     net, x, y, access, hole, record, where = zip(*rows)
     x, y, hole = np.array(x), np.array(y), np.array(hole)
-    largest = np.maximum.reduce([np.abs(x), np.abs(y), hole])
+    largest = np.maximum(np.abs(x), np.abs(y))
     if (problem := coordinate_problem(float(largest.max()))) is not None:
         raise InputError(problem, path=name, line=int(where[int(np.argmax(largest))]))
+    drilled = np.flatnonzero(hole > 0)
+    low, high = RANGES["drill diameter"].low, RANGES["drill diameter"].high
+    if len(odd := drilled[(hole[drilled] < low) | (hole[drilled] > high)]):
+        check_range("drill diameter", hole[odd[0]], "hole diameter", name, int(where[odd[0]]))
     return NetlistRecords(name, np.array(net, dtype=object), x, y, np.array(access, dtype=np.int32), hole,
                           np.array(record, dtype=np.int32), np.array(where, dtype=np.int32))
 

@@ -9,13 +9,7 @@ from pathlib import Path
 
 from scanner.board.model import Stackup, StackupLayer
 from scanner.errors import InputError, printable
-from scanner.input_limits import read_input
-
-
-#: stackup layer thickness must lie in (0, MAX_THICKNESS_MM) mm, as in the rules file
-MAX_THICKNESS_MM = 10.0
-#: relative permittivity must lie in [1, MAX_EPSILON_R]
-MAX_EPSILON_R = 100.0
+from scanner.input_limits import check_range, read_input
 
 
 @dataclass
@@ -50,35 +44,24 @@ def _gerber_syntax_job(text: str, name: str) -> JobFile:
     return job
 
 
-def _number(item: dict, key: str) -> float | None:
-    """A JSON number (or numeric string) as float; None when absent; NaN when not a number."""
+def _number(item: dict, key: str, kind: str, where: str, path: str) -> float | None:
+    """``item[key]`` (a JSON number or numeric string) within the physical range of ``kind``; None when absent."""
     value = item.get(key)
     if value is None:
         return None
-    if isinstance(value, bool) or not isinstance(value, (int, float, str)):
-        return float("nan")
-    try:
-        return float(value)
-    except ValueError:
-        return float("nan")
+    return check_range(kind, value if isinstance(value, (int, float, str)) else repr(value),
+                       f"job file {where} {key}", path)
 
 
-def _thickness(item: dict, where: str, path: str) -> float:
-    value = _number(item, "Thickness")
+def _thickness(item: dict, kind: str, where: str, path: str) -> float:
+    value = _number(item, "Thickness", f"{kind} thickness", where, path)
     if value is None:
         raise InputError(f"job file {where} has no Thickness", path=path)
-    if not 0 < value < MAX_THICKNESS_MM:
-        raise InputError(f"job file {where} has Thickness {item['Thickness']!r}; expected a number of mm "
-                         f"above 0 and below {MAX_THICKNESS_MM:g}", path=path)
     return value
 
 
 def _permittivity(item: dict, where: str, path: str) -> float | None:
-    value = _number(item, "DielectricConstant")
-    if value is not None and not 1.0 <= value <= MAX_EPSILON_R:
-        raise InputError(f"job file {where} has DielectricConstant {item['DielectricConstant']!r}; expected a "
-                         f"relative permittivity from 1 to {MAX_EPSILON_R:g}", path=path)
-    return value
+    return _number(item, "DielectricConstant", "relative permittivity", where, path)
 
 
 def _list(data: dict, key: str, path: str) -> list:
@@ -120,15 +103,15 @@ def read_job_file(path: Path, display_name: str | None = None) -> JobFile:
         label = printable(str(item.get("Name", kind)))
         where = f"MaterialStackup item {number} ({label!r})"
         if kind == "copper":
-            layers.append(StackupLayer("copper", label, _thickness(item, where, name), None, copper_index))
+            layers.append(StackupLayer("copper", label, _thickness(item, kind, where, name), None, copper_index))
             copper_index += 1
         elif kind == "dielectric":
-            thickness, eps = _thickness(item, where, name), _permittivity(item, where, name)
+            thickness, eps = _thickness(item, kind, where, name), _permittivity(item, where, name)
             if eps is None:
                 raise InputError(f"job file {where} has no DielectricConstant", path=name)
             layers.append(StackupLayer("dielectric", label, thickness, eps))
         elif kind == "soldermask":
-            thickness, eps = _thickness(item, where, name), _permittivity(item, where, name)
+            thickness, eps = _thickness(item, kind, where, name), _permittivity(item, where, name)
             if eps is None:
                 job.warnings.append(f"{name}: {where} has no DielectricConstant; solder mask left out of the stackup")
                 continue

@@ -22,6 +22,7 @@ from scanner.importers.gerber_copper import parse_gerber
 from scanner.importers.layer_names import name_words
 from scanner.importers.sources import SourceFile
 from scanner.input_limits import SEGMENTS, check_count, limit
+from scanner.memory import check_memory
 
 _PROFILE_WORDS = {"edge", "edgecuts", "outline", "outlline", "profile", "boundary", "contour", "dimension",
                   "dim", "border", "rout", "route", "keepout"}
@@ -32,6 +33,8 @@ _MECHANICAL = re.compile(r"\.(?:gm\d{1,2}|gd\d{0,2}|fab|drd)$|mech|fab|drawing|b
 SNAP_MM = 1e-3
 #: when the draws do not close, gaps up to twice this (mm) between their ends are bridged
 GAP_MM = 0.1
+#: bytes per outline point while the grown draws are merged (an upper estimate; each point grows to about 8)
+BYTES_PER_UNION_POINT = 200
 #: a candidate outline must hold this share of the board's evidence points ...
 EVIDENCE_SHARE = 0.95
 #: ... each counted inside when within this distance (mm) of it
@@ -151,6 +154,7 @@ def _bridged_shapes(lines: list[np.ndarray]) -> np.ndarray:
     if not lines:
         return np.zeros(0, dtype=object)
     index = np.repeat(np.arange(len(lines)), [len(line) for line in lines])
+    check_memory(len(index) * BYTES_PER_UNION_POINT * 8, f"closing the gaps of {len(lines):,} outline draws")
     grown = shapely.union_all(shapely.buffer(shapely.linestrings(np.vstack(lines), indices=index), GAP_MM,
                                              quad_segs=2))
     holes = [shapely.Polygon(ring) for part in shapely.get_parts(grown) for ring in part.interiors]

@@ -15,6 +15,7 @@ from scipy.sparse.csgraph import connected_components
 
 from scanner.board.model import NO_NET, CopperLayer, CopperShapes, TraceSegments
 from scanner.importers.board_extent import segment_lines
+from scanner.memory import check_memory
 
 #: strokes count as parallel within this angle (degrees)
 PARALLEL_DEG = 1.0
@@ -24,6 +25,8 @@ POUR_MIN_ACROSS_MM = 2.0
 POUR_MIN_STROKES = 6
 #: segments per quarter circle of the capsules the strokes become
 CAPSULE_QUAD_SEGS = 2
+#: bytes per outline point while shapes are merged (an upper estimate, as for merging pours)
+BYTES_PER_UNION_POINT = 200
 
 
 def pour_strokes(s: TraceSegments) -> np.ndarray:
@@ -119,7 +122,10 @@ def negative_to_pour(layer: CopperLayer, board_area) -> CopperLayer:
     drawn = [shapely.buffer(segment_lines(s), s.width / 2, quad_segs=CAPSULE_QUAD_SEGS)] if len(s) else []
     if len(layer.shapes):
         drawn.append(layer.shapes.geometry)
-    cleared = shapely.union_all(np.concatenate(drawn)) if drawn else None
+    drawn = np.concatenate(drawn) if drawn else np.zeros(0, dtype=object)
+    check_memory(shapely.get_num_coordinates(drawn).sum() * BYTES_PER_UNION_POINT,
+                 f"inverting the negative image of {layer.name} ({len(drawn):,} objects)", layer.path)
+    cleared = shapely.union_all(drawn) if len(drawn) else None
     copper = shapely.difference(board_area, cleared) if cleared is not None else board_area
     parts = shapely.get_parts(copper)
     parts = parts[shapely.area(parts) > 0]

@@ -27,8 +27,7 @@ from pathlib import Path
 
 from scanner.board.model import Stackup, StackupLayer
 from scanner.errors import InputError, printable
-from scanner.importers.jobfile import MAX_EPSILON_R, MAX_THICKNESS_MM
-from scanner.input_limits import read_input
+from scanner.input_limits import check_range, read_input
 from scanner.rules import parse_stackup_table
 from scanner.units import MM_PER_MIL, MM_PER_OZ_COPPER
 
@@ -44,8 +43,6 @@ TYPE_WORDS = {
 #: thickness units in a header -> mm per unit
 THICKNESS_UNITS = {"mm": 1.0, "um": 1e-3, "µm": 1e-3, "μm": 1e-3, "micron": 1e-3, "microns": 1e-3,
                    "mil": MM_PER_MIL, "mils": MM_PER_MIL, "thou": MM_PER_MIL}
-#: copper weights above this (oz/ft²) are not board copper
-MAX_COPPER_OZ = 20.0
 _NAME_HEADERS = {"name", "layer", "layer name"}
 _TYPE_HEADERS = {"type", "kind", "material type", "layer type"}
 _ER_WORDS = {"dk", "er", "εr", "epsilonr"}
@@ -205,20 +202,15 @@ def _layer(cells: list[str], columns: _Columns, delimiter: str, name: str, line:
     if thickness is not None:
         thickness *= columns.mm_per_unit
     elif kind == "copper" and weight is not None:
-        if not 0 < weight <= MAX_COPPER_OZ:
-            raise InputError(f"copper weight {weight:g} oz is outside (0, {MAX_COPPER_OZ:g}] oz", name, line)
-        thickness = weight * MM_PER_OZ_COPPER
+        thickness = check_range("copper weight", weight, f"copper weight of {label!r}", name, line) * MM_PER_OZ_COPPER
     else:
         raise InputError(f"{kind} row {label!r} has no thickness"
                          + (" or copper weight" if kind == "copper" else ""), name, line)
-    if not 0 < thickness < MAX_THICKNESS_MM:
-        raise InputError(f"thickness {thickness:g} mm of {label!r} is outside (0, {MAX_THICKNESS_MM:g}) mm",
-                         name, line)
+    check_range(f"{kind} thickness", thickness, f"thickness of {label!r}", name, line)
     if kind == "copper":
         return StackupLayer("copper", label, thickness, None, copper)
     er = _number(_cell(cells, columns.er), delimiter, "dielectric constant", name, line)
     if er is None:
         raise InputError(f"{kind} row {label!r} has no dielectric constant", name, line)
-    if not 1.0 <= er <= MAX_EPSILON_R:
-        raise InputError(f"dielectric constant {er:g} of {label!r} is outside [1, {MAX_EPSILON_R:g}]", name, line)
+    check_range("relative permittivity", er, f"dielectric constant of {label!r}", name, line)
     return StackupLayer(kind, label, thickness, er)

@@ -28,7 +28,7 @@ Victim noise (weak coupling, docs/physics.md §3), for one piece or a chain of p
 
     near_end_peak(kb, length_m, velocity_m_per_s, rise_time_s, swing_v)
     far_end_peak(kf, length_m, rise_time_s, swing_v)
-    piecewise_peaks(kb, kf, length_m, velocity_m_per_s, rise_time_s, swing_v, far_end_receiver="high_z")
+    piecewise_peaks(kb, kf, length_m, velocity_m_per_s, rise_time_s, swing_v, termination="high-z-receiver")
 
 Impedances of a layer (scanner.physics.impedance): ``trace_impedance(width_mm, **layer)`` (Z0),
 ``differential_impedance(width_mm, gap_mm, **layer)`` (2 Zo) and ``DifferentialTable`` over the gap.

@@ -1,12 +1,22 @@
 """Victim noise in the weak-coupling model: waveforms and peaks (docs/physics.md §3).
 
 The aggressor edge is a linear ramp of ``swing_v`` whose 10-90 % rise time is
-``rise_time_s`` (ramp duration T = rise_time / 0.8). Lines are lossless, the
-aggressor is matched and the victim's near end is matched. The victim's far
-end is matched (``far_end_receiver='matched'``) or open (``'high_z'``: the
-far-end wave doubles there and its reflection reaches the near end one delay
-later). A run is a chain of pieces, each with its own Kb, Kf, length and
-velocity, listed from end A to end B; the driver may sit at either end.
+``rise_time_s`` (ramp duration T = rise_time / 0.8). Lines are lossless and the
+aggressor is matched. A run is a chain of pieces, each with its own Kb, Kf, length
+and velocity, listed from end A to end B; the driver may sit at either end.
+
+Victim terminations (``termination``, the same words as the rules file):
+
+* ``"matched"``: both victim ends matched; the near-end and far-end noise are the
+  waves as they arrive.
+* ``"high-z-receiver"``: the victim is driven from one end through a matched
+  (series-terminated) source and received at the other by a high-impedance input,
+  which doubles the wave reaching it. Which end holds the receiver is not known, so
+  two cases are each evaluated whole: driven from the far end, the receiver sits at
+  the aggressor's driver end and sees twice the near-end wave (the far-end wave is
+  absorbed by the victim's driver); driven from the same end as the aggressor, the
+  receiver sits at the far end and sees twice the far-end wave (the near-end wave is
+  absorbed). The NEXT figure is the first case, the FEXT figure the second.
 """
 from __future__ import annotations
 
@@ -18,7 +28,7 @@ from scanner.physics.coupling import WEAK_COUPLING_LIMIT
 
 #: a 10-90 % rise time covers 80 % of a linear ramp
 RAMP_PER_RISE_TIME = 1 / 0.8
-RECEIVERS = ("matched", "high_z")
+TERMINATIONS = ("matched", "high-z-receiver")
 
 
 def ramp_duration_s(rise_time_s):
@@ -37,16 +47,17 @@ def near_end_peak(kb, length_m, velocity_m_per_s, rise_time_s, swing_v):
     return np.asarray(kb) * swing_v * np.minimum(1.0, two_td / ramp_duration_s(rise_time_s))
 
 
-def far_end_peak(kf_s_per_m, length_m, rise_time_s, swing_v, far_end_receiver="matched"):
+def far_end_peak(kf_s_per_m, length_m, rise_time_s, swing_v, termination="matched"):
     """Uniform run: Kf * length * swing / T, doubled at a high-impedance receiver (signed, vectorised)."""
-    return _receiver_gain(far_end_receiver) * np.asarray(kf_s_per_m) * length_m * swing_v / ramp_duration_s(
-        rise_time_s)
+    return receiver_gain(termination) * np.asarray(kf_s_per_m) * length_m * swing_v / ramp_duration_s(rise_time_s)
 
 
-def _receiver_gain(far_end_receiver: str) -> float:
-    if far_end_receiver not in RECEIVERS:
-        raise ValueError(f"far_end_receiver must be one of {RECEIVERS}, got {far_end_receiver!r}")
-    return 2.0 if far_end_receiver == "high_z" else 1.0
+def receiver_gain(termination: str) -> float:
+    """What the victim's receiver makes of an arriving noise wave: a high-impedance input doubles it
+    (reflection coefficient +1); a matched end takes it as it is."""
+    if termination not in TERMINATIONS:
+        raise ValueError(f"termination must be one of {TERMINATIONS}, got {termination!r}")
+    return 2.0 if termination == "high-z-receiver" else 1.0
 
 
 def _ramp(t, ramp_s):
@@ -85,12 +96,11 @@ class _Run:
         return float(np.sum(self.kf * self.length_m))
 
     def near_end(self, t, ramp_s, gain):
-        """Near-end voltage per volt of swing at times t (any shape)."""
+        """Near-end voltage per volt of swing at times t (any shape), received with ``gain``."""
         t = np.asarray(t, dtype=float)[..., None]
         start = 2 * (np.cumsum(self.delay_s) - self.delay_s)
-        backward = np.sum(self.kb * (_ramp(t - start, ramp_s) - _ramp(t - start - 2 * self.delay_s, ramp_s)), axis=-1)
-        reflected = (gain - 1) * self.forward_sum * _pulse(t[..., 0] - 2 * self.total_delay_s, ramp_s)
-        return backward + reflected
+        return gain * np.sum(self.kb * (_ramp(t - start, ramp_s) - _ramp(t - start - 2 * self.delay_s, ramp_s)),
+                             axis=-1)
 
     def far_end(self, t, ramp_s, gain):
         return gain * self.forward_sum * _pulse(np.asarray(t, dtype=float) - self.total_delay_s, ramp_s)
@@ -98,7 +108,7 @@ class _Run:
     def near_end_extreme(self, ramp_s, gain) -> float:
         """Signed near-end value of largest magnitude: the waveform is piecewise linear, so check breakpoints."""
         start = 2 * (np.cumsum(self.delay_s) - self.delay_s)
-        knots = np.concatenate([start, start + 2 * self.delay_s, [2 * self.total_delay_s]])
+        knots = np.concatenate([start, start + 2 * self.delay_s])
         knots = np.concatenate([knots, knots + ramp_s])
         eps = 1e-9 * ramp_s
         t = np.concatenate([knots - eps, knots + eps, knots])
@@ -108,7 +118,7 @@ class _Run:
 
 @dataclass(frozen=True)
 class VictimNoise:
-    """Peaks (V, signed) on one victim from one aggressor; the worse orientation of the run.
+    """Peaks (V, signed) at the victim's receiver from one aggressor; the worse orientation of the run.
 
     ``worst_orientation``: 'a' when the driver at the run's first piece gives the
     larger near-end noise, else 'b'. Waveforms are present only when requested.
@@ -125,19 +135,21 @@ class VictimNoise:
     far_end_v: np.ndarray | None = None
 
 
-def near_end_waveform(time_s, kb, kf, length_m, velocity_m_per_s, rise_time_s, swing_v, far_end_receiver="matched"):
-    """Near-end victim voltage at ``time_s`` with the driver at the first piece (t = 0: edge starts)."""
+def near_end_waveform(time_s, kb, kf, length_m, velocity_m_per_s, rise_time_s, swing_v, termination="matched"):
+    """Victim voltage at the near end (the aggressor's driver end) at ``time_s`` with the driver at the first
+    piece (t = 0: edge starts); for a high-z-receiver, the receiver sits there (victim driven from the far end)."""
     run = _Run.of(kb, kf, length_m, velocity_m_per_s)
-    return swing_v * run.near_end(time_s, float(ramp_duration_s(rise_time_s)), _receiver_gain(far_end_receiver))
+    return swing_v * run.near_end(time_s, float(ramp_duration_s(rise_time_s)), receiver_gain(termination))
 
 
-def far_end_waveform(time_s, kb, kf, length_m, velocity_m_per_s, rise_time_s, swing_v, far_end_receiver="matched"):
-    """Far-end victim voltage at ``time_s`` (the same for either driver position)."""
+def far_end_waveform(time_s, kb, kf, length_m, velocity_m_per_s, rise_time_s, swing_v, termination="matched"):
+    """Victim voltage at the far end at ``time_s`` (the same for either driver position); for a
+    high-z-receiver, the receiver sits there (victim driven from the same end as the aggressor)."""
     run = _Run.of(kb, kf, length_m, velocity_m_per_s)
-    return swing_v * run.far_end(time_s, float(ramp_duration_s(rise_time_s)), _receiver_gain(far_end_receiver))
+    return swing_v * run.far_end(time_s, float(ramp_duration_s(rise_time_s)), receiver_gain(termination))
 
 
-def piecewise_peaks(kb, kf, length_m, velocity_m_per_s, rise_time_s, swing_v, far_end_receiver="matched",
+def piecewise_peaks(kb, kf, length_m, velocity_m_per_s, rise_time_s, swing_v, termination="matched",
                     waveforms: bool = False, time_s: np.ndarray | None = None) -> VictimNoise:
     """NEXT and FEXT peaks for a run made of pieces (arrays, one entry per piece, from end A to end B).
 
@@ -147,7 +159,7 @@ def piecewise_peaks(kb, kf, length_m, velocity_m_per_s, rise_time_s, swing_v, fa
     """
     run = _Run.of(kb, kf, length_m, velocity_m_per_s)
     ramp_s = float(ramp_duration_s(rise_time_s))
-    gain = _receiver_gain(far_end_receiver)
+    gain = receiver_gain(termination)
     next_a = swing_v * run.near_end_extreme(ramp_s, gain)
     next_b = swing_v * run.reversed().near_end_extreme(ramp_s, gain)
     worst = "b" if abs(next_b) > abs(next_a) * (1 + 1e-9) else "a"

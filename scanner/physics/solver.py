@@ -22,6 +22,8 @@ from functools import lru_cache
 
 import numpy as np
 
+from scanner.errors import InputError
+from scanner.memory import check_memory, stage
 from scanner.physics.geometry import CrossSection
 from scanner.physics.kernels import panel_integrals
 from scanner.physics.matrices import LineMatrices
@@ -30,6 +32,13 @@ from scanner.units import EPS0
 
 #: relative accuracy the default mesh aims at for C, L, Z0 and coupling (checked in tests/physics)
 TOLERANCE = 0.005
+#: panels one solve may use; the dense solve grows with their cube in time (about a minute here at this size)
+#: and their square in memory. Boards need a few hundred; thousands mean a trace or gap hundreds of times
+#: wider than its dielectric.
+MAX_PANELS = 3000
+#: bytes per (panel x panel) entry at the peak of a solve: kernel integrals, their images and the system
+#: (measured: 80 to 120 with the tracemalloc module; rounded up)
+BYTES_PER_PANEL_PAIR = 160
 
 
 def solve_cross_section(section: CrossSection, mesh: MeshSettings = DEFAULT_MESH) -> LineMatrices:
@@ -40,10 +49,28 @@ def solve_cross_section(section: CrossSection, mesh: MeshSettings = DEFAULT_MESH
 @lru_cache(maxsize=1024)
 def _solve_cached(section: CrossSection, mesh: MeshSettings) -> LineMatrices:
     panels = build_panels(section, mesh)
-    C, C0 = _capacitances(section, panels)
+    _check_size(section, len(panels))
+    with stage("solving a cross-section", f"{len(panels):,} panels"), np.errstate(all="ignore"):
+        C, C0 = _capacitances(section, panels)
+    if not (np.isfinite(C).all() and np.isfinite(C0).all()):
+        raise InputError(f"{_describe(section)}: the solve gave no finite result (the geometry is degenerate)")
     signals = list(section.signal_indices)
     pick = np.ix_(signals, signals)
     return LineMatrices.from_capacitances(_symmetric(C[pick]), _symmetric(C0[pick]))
+
+
+def _describe(section: CrossSection) -> str:
+    widths = ", ".join(f"{c.x_range_mm[1] - c.x_range_mm[0]:.4g}" for c in section.conductors)
+    return (f"cross-section of traces {widths} mm wide, {min(c.y_range_mm[0] for c in section.conductors):.4g} mm "
+            "over the plane")
+
+
+def _check_size(section: CrossSection, panels: int) -> None:
+    """Refuse a solve needing more panels, or more memory, than it may use (before any matrix is built)."""
+    if panels > MAX_PANELS:
+        raise InputError(f"{_describe(section)} needs {panels:,} panels, more than the {MAX_PANELS:,} one solve "
+                         "may use (a width or gap far larger than the dielectric under it)")
+    check_memory(BYTES_PER_PANEL_PAIR * panels**2, f"solving the {_describe(section)} ({panels:,} panels)")
 
 
 def panel_count(section: CrossSection, mesh: MeshSettings = DEFAULT_MESH) -> int:

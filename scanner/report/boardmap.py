@@ -118,7 +118,7 @@ def _groups(result: ScanResult) -> dict[int, dict]:
             "classes": f"{h.victim_class} ← {h.aggressor_class}", "layers": "+".join(h.layers),
             "structure": h.structure, "length_mm": h.coupled_length_mm, "gap_mm": h.min_spacing_mm,
             "next_mv": h.next_mv, "fext_mv": h.fext_mv, "next_budget_mv": h.next_budget_mv,
-            "fext_budget_mv": h.fext_budget_mv, "used_pct": round(100 * h.budget_used),
+            "fext_budget_mv": h.fext_budget_mv, "used_pct": round(h.budget_used_pct),
             "fix": fix_lines(h), "detail": f"finding-{details[h.run]}" if h.run in details else None,
             "quiet": h.status == "pass" and h.rank > PASS_SHOWN_TOP})
     for i, g in enumerate(result.geometric):

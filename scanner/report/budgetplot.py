@@ -21,7 +21,7 @@ def budget_figure(victims: list[VictimTotal], basis: str = "worst-case") -> Figu
     fig = Figure(figsize=(WIDTH_IN, height), facecolor=palette.BACKGROUND)
     FigureCanvasAgg(fig)
     ax = fig.add_axes((0.3, MARGIN_IN["bottom"] / height, 0.62, 1 - (MARGIN_IN["top"] + MARGIN_IN["bottom"]) / height))
-    used = np.array([100 * v.budget_used for v in shown])
+    used = np.array([v.budget_used_pct for v in shown])
     y = np.arange(len(shown))[::-1]
     ax.barh(y, used, height=0.7, color=[palette.STATUS_COLOUR[v.status] for v in shown], zorder=2)
     reach = max(float(used.max()) if len(used) else 0.0, 100.0) * 1.15

@@ -1,4 +1,4 @@
-"""report.json and hotspots.csv as text."""
+"""report.json and hotspots.csv as text (one row per coupled run, its worse direction first)."""
 from __future__ import annotations
 
 import csv
@@ -9,10 +9,11 @@ import math
 from scanner.errors import InternalError
 from scanner.scoring.results import ScanResult
 
-CSV_COLUMNS = ("rank", "status", "victim", "aggressor", "victim_class", "aggressor_class", "layer", "structure",
+CSV_COLUMNS = ("rank", "id", "status", "victim", "aggressor", "victim_class", "aggressor_class", "layer", "structure",
                "coupled_length_mm", "min_spacing_mm", "mean_spacing_mm", "x_mm", "y_mm", "next_mv", "fext_mv",
-               "next_pct", "fext_pct", "next_budget_mv", "fext_budget_mv", "budget_used", "aggressor_model",
-               "fix_spacing_needed_mm", "fix_max_length_mm", "fix_layer", "waived_by")
+               "next_pct", "fext_pct", "next_budget_mv", "fext_budget_mv", "budget_used_pct", "aggressor_model",
+               "other_way_status", "other_way_budget_used_pct", "fix_spacing_needed_mm", "fix_max_length_mm",
+               "fix_layer", "fix_together_with", "waived_by")
 
 #: first characters that make a spreadsheet read a cell as a formula (or hide the start of one)
 FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
@@ -61,11 +62,16 @@ def hotspots_csv(result: ScanResult) -> str:
     w = csv.writer(buf, lineterminator="\r\n")
     w.writerow(CSV_COLUMNS)
     for h in result.hotspots:
-        d = h.to_dict()
+        worse = h.directions[0]
+        d = h.to_dict() | worse.to_dict()
+        other = h.directions[1] if len(h.directions) > 1 else None
         fix = h.fix or {}
+        d["other_way_status"] = other.status if other else None
+        d["other_way_budget_used_pct"] = other.budget_used_pct if other else None
         d["fix_spacing_needed_mm"] = fix.get("spacing_needed_mm")
         d["fix_max_length_mm"] = fix.get("max_length_mm")
         d["fix_layer"] = (fix.get("alternative_layer") or {}).get("layer")
+        d["fix_together_with"] = " ".join(fix.get("together_with") or []) or None
         d["waived_by"] = h.waiver["id"] if h.waived else None
         w.writerow(["" if d.get(k) is None else spreadsheet_safe(d.get(k)) for k in CSV_COLUMNS])
     return buf.getvalue()

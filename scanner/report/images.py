@@ -185,7 +185,7 @@ def crop_figure(result: ScanResult, board: Board, hotspot: Hotspot) -> Picture:
                      f"(aggressor) on {layer_names}",
                      f"{board.name}: {hotspot.coupled_length_mm:.4g} mm coupled, ≥ {hotspot.min_spacing_mm:.3g} mm "
                      f"apart; NEXT {hotspot.next_mv:.4g} mV, FEXT {hotspot.fext_mv:.4g} mV; "
-                     f"{100 * hotspot.budget_used:.0f} % of budget")
+                     f"{hotspot.budget_used_pct:.0f} % of budget")
     return Picture(canvas.figure, titles)
 
 

@@ -1,10 +1,10 @@
 """What the overlays show: which findings, where their markers sit, which traces they highlight.
 
 Findings are the ranked noise findings (labelled by rank) and the broken
-geometric limits (labelled G1, G2, … in report order). A coupled run scored in
-both directions gives two findings at the same place; they share one marker whose
-label lists both. Trace roles (victim, aggressor) follow the first finding of each
-run. A run that changes layer has a marker on every layer it uses: at the
+geometric limits (labelled G1, G2, … in report order). A noise finding and a
+broken limit on the same coupled run share one marker whose label lists both.
+Trace roles (victim, aggressor) follow the first finding of each run (for a noise
+finding, its worse direction). A run that changes layer has a marker on every layer it uses: at the
 finding's location on its main layer, at the middle of its longest piece on the others.
 """
 from __future__ import annotations
@@ -82,7 +82,7 @@ def shown_findings(result: ScanResult, pass_top: int = PASS_SHOWN_TOP) -> list[F
 
 def hotspot_title(h: Hotspot) -> str:
     """One line naming a finding's nets and figures."""
-    return (f"#{h.rank} {h.victim} (victim) ← {h.aggressor}: {100 * h.budget_used:.0f} % of budget, "
+    return (f"#{h.rank} {h.victim} (victim) ← {h.aggressor}: {h.budget_used_pct:.0f} % of budget, "
             f"NEXT {h.next_mv:.4g} mV, FEXT {h.fext_mv:.4g} mV, {h.coupled_length_mm:.4g} mm at "
             f"≥ {h.min_spacing_mm:.3g} mm on {'+'.join(h.layers)}")
 

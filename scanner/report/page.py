@@ -85,7 +85,7 @@ def _detail_by_run(result: ScanResult, folder: _Folder) -> dict[int, int]:
 def _worst_run_text(h: Hotspot) -> Markup:
     return two_line(f"{h.aggressor} on {'+'.join(h.layers)}",
                     f"{h.coupled_length_mm:.4g} mm side by side, gap ≥ {h.min_spacing_mm:.3g} mm, "
-                    f"{100 * h.budget_used:.0f} % of budget alone")
+                    f"{h.budget_used_pct:.0f} % of budget alone")
 
 
 def _fix_row(item: FixItem, result: ScanResult, details: dict[int, int]) -> tuple[list, dict]:
@@ -101,13 +101,13 @@ def _fix_row(item: FixItem, result: ScanResult, details: dict[int, int]) -> tupl
         return cells, {"data_run": g.run, "class_": "row-fail"}
     h = item.hotspot
     if h is None:
-        return [item.victim, two_line(item.victim, item.victim_class), f"{100 * item.budget_used:.0f} %",
+        return [item.victim, two_line(item.victim, item.victim_class), f"{item.budget_used_pct:.0f} %",
                 "no single run listed", "–", "–"], {"class_": "row-fail"}
     fix = fix_lines(h)
-    if h.budget_used <= 1.0:
+    if h.budget_used_pct <= 100:
         fix = [f"no single run is over budget: {item.aggressor_count} aggressors add up; start with this one"] + fix
     picture = link(f"#finding-{details[h.run]}", "close-up") if h.run in details else "on the map"
-    cells = [str(h.rank), two_line(item.victim, item.victim_class), f"{100 * item.budget_used:.0f} %",
+    cells = [str(h.rank), two_line(item.victim, item.victim_class), f"{item.budget_used_pct:.0f} %",
              _worst_run_text(h), lines(fix) if fix else "–", picture]
     return cells, {"data_run": h.run, "class_": "row-fail"}
 
@@ -187,8 +187,8 @@ def _status(finding) -> Markup:
 
 def _used(h: Hotspot) -> Markup:
     """Share of budget used, with the exact simulation's share under it where one was run."""
-    used = f"{100 * h.budget_used:.0f} %"
-    return two_line(used, f"exact {100 * h.exact['budget_used']:.0f} %") if h.exact else esc(used)
+    used = f"{h.budget_used_pct:.0f} %"
+    return two_line(used, f"exact {h.exact['budget_used_pct']:.0f} %") if h.exact else esc(used)
 
 
 def _finding_rows(hotspots: list[Hotspot], details: dict[int, int], on_map: bool) -> tuple[list, list]:
@@ -280,12 +280,12 @@ def _impedance(result: ScanResult) -> Markup:
 def _victims(victims: list[VictimTotal]) -> Markup:
     rows = []
     for v in victims:
-        aggressors = list(dict.fromkeys(v.aggressors))
+        aggressors = list(dict.fromkeys(a["aggressor"] for a in v.aggressors))
         rows.append([v.net, v.net_class, badge(v.status), f"{v.next_worst_mv:.4g} ({v.next_worst_pct:.3g} %)",
                      f"{v.fext_worst_mv:.4g} ({v.fext_worst_pct:.3g} %)", f"{v.next_rss_pct:.3g} / {v.fext_rss_pct:.3g}",
-                     f"{v.next_budget_mv:.4g} / {v.fext_budget_mv:.4g}", f"{100 * v.budget_used:.0f} %",
+                     f"{v.next_budget_mv:.4g} / {v.fext_budget_mv:.4g}", f"{v.budget_used_pct:.0f} %",
                      ", ".join(aggressors) + (f"; waived: {', '.join(v.waived_aggressors)} ({', '.join(v.waivers)}), "
-                                              f"{100 * v.budget_used_with_waived:.0f} % with them"
+                                              f"{v.budget_used_with_waived_pct:.0f} % with them"
                                               if v.waived_aggressors else "")])
     body = table(["victim", "class", "status", "NEXT worst case mV (%)", "FEXT worst case mV (%)",
                   "RSS % (NEXT / FEXT)", "budget mV (NEXT / FEXT)", "budget used", "aggressors"], rows,
@@ -316,7 +316,7 @@ def _details(result: ScanResult, folder: _Folder) -> Markup:
                       ("strong coupling", "yes: weak-coupling figures are less accurate" if h.strong_coupling
                        else "no"), ("fix", lines(fix_lines(h)) if h.fix else "none needed")]
                      + ([("exact line simulation", f"NEXT {h.exact['next_mv']:.4g} mV, FEXT {h.exact['fext_mv']:.4g} "
-                                                   f"mV, {100 * h.exact['budget_used']:.0f} % of budget")]
+                                                   f"mV, {h.exact['budget_used_pct']:.0f} % of budget")]
                         if h.exact else []))
         parts.append(tag("section", [tag("h3", f"#{h.rank} {h.victim} ← {h.aggressor} on {'+'.join(h.layers)}"),
                                      info, tag("div", figures, class_="pair")], id=f"finding-{h.rank}"))

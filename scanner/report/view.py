@@ -19,7 +19,7 @@ class FixItem:
 
     victim: str
     victim_class: str
-    budget_used: float | None  # the victim's total over all aggressors (None for a geometric limit)
+    budget_used_pct: float | None  # what decides the victim's status (None for a geometric limit)
     aggressor_count: int
     hotspot: Hotspot | None  # the victim's worst run
     geometric_index: int | None = None
@@ -31,17 +31,21 @@ def coverage_layers(result: ScanResult) -> dict[str, dict]:
 
 
 def worst_runs(result: ScanResult) -> dict[str, Hotspot]:
-    """Each victim's listed finding with the largest share of budget (findings are ranked by it)."""
+    """Each victim's listed run with the largest share of its budget, read from that victim's side (a run holds
+    both directions)."""
     out: dict[str, Hotspot] = {}
     for h in result.hotspots:
-        out.setdefault(h.victim, h)
+        for d in h.directions:
+            if d.victim not in out or d.budget_used_pct > out[d.victim].budget_used_pct:
+                out[d.victim] = h.toward(d.victim)
     return out
 
 
 def fix_first(result: ScanResult) -> list[FixItem]:
     """Failing victims, most over budget first, each with its worst run; then broken geometric limits."""
     worst = worst_runs(result)
-    items = [FixItem(v.net, v.net_class, v.budget_used, len(set(v.aggressors)), worst.get(v.net))
+    items = [FixItem(v.net, v.net_class, v.budget_used_pct, len({a["aggressor"] for a in v.aggressors}),
+                     worst.get(v.net))
              for v in result.victims if v.status == "fail"]
     items += [FixItem(g.victim, g.victim_class, None, 1, None, i)
               for i, g in enumerate(result.geometric) if g.status == "fail"]
@@ -62,7 +66,7 @@ def detail_hotspots(result: ScanResult, top: int = DETAIL_TOP) -> list[Hotspot]:
 
 def victims_by_use(result: ScanResult) -> list[VictimTotal]:
     """Victims with the largest share of budget used first."""
-    return sorted(result.victims, key=lambda v: -v.budget_used)
+    return sorted(result.victims, key=lambda v: -v.budget_used_pct)
 
 
 def is_shown_in_table(h: Hotspot) -> bool:
@@ -83,17 +87,19 @@ def layer_references(result: ScanResult) -> dict[str, str]:
 
 
 def fix_lines(h: Hotspot, brief: bool = False) -> list[str]:
-    """The finding's fix guidance, one way out per line: in a designer's words, or ``brief`` for a table cell."""
+    """The finding's fix guidance, one way out per line: in a designer's words, or ``brief`` for a table cell.
+    Every way shown was re-scored by the scan and passes (docs/rules.md, "Fix guidance")."""
     fix = h.fix or {}
     alternative = fix.get("alternative_layer") or {}
-    used = alternative.get("budget_used")
-    ways = [(fix.get("spacing_needed_mm"), "gap ≥ {:.3g} mm", "widen the gap to ≥ {:.3g} mm along the run"),
-            (fix.get("max_length_mm"), "length ≤ {:.3g} mm", "shorten the side-by-side length to ≤ {:.3g} mm"),
-            (alternative.get("layer"), "on {}" + (f": {100 * used:.0f} %" if used is not None else ""),
-             "move it to {} (" + alternative.get("structure", "")
-             + (f": {100 * used:.0f} % of budget there)" if used is not None else ")"))]
+    ways = [(fix.get("spacing_needed_mm"), "gap ≥ {:.3f} mm", "widen the gap to ≥ {:.3f} mm along the run"),
+            (fix.get("max_length_mm"), "length ≤ {:.1f} mm", "shorten the side-by-side length to ≤ {:.1f} mm"),
+            (alternative.get("layer"), "on {}", "move it to {} (" + alternative.get("structure", "") + ")")]
     out = []
     for value, short, words in ways:
         if value is not None:
             out.append(short.format(value) if brief else ("or " if out else "") + words.format(value))
+    others = len(fix.get("together_with") or [])
+    if others and not brief:
+        out.append(f"together with {others} other run{'s' if others > 1 else ''} on the same victim"
+                   f"{'s' if others > 1 else ''}")
     return out + ([fix["note"]] if fix.get("note") and not brief else [])

@@ -3,9 +3,12 @@
 The waveforms come from ``scanner.physics.crosstalk.piecewise_peaks`` (weak
 coupling, docs/physics.md §3) with the finding's own chain of pieces and their
 coefficients and the aggressor's rise time and swing; the orientation shown is the
-one with the larger near-end noise. As in the scan (docs/physics.md, terminations),
-a victim with a high-impedance receiver has each end's curve doubled: the wave
-arriving at an open input doubles, whichever end the receiver sits at. The time
+one with the larger near-end noise. The model is the scan's own (docs/physics.md,
+terminations): for a victim with a high-impedance receiver each curve is that
+receiver's voltage in one of the two cases — the near-end curve with the receiver
+at the aggressor's driver end (victim driven from the far end), the far-end curve
+with the receiver at the far end (victim driven from the same end) — and the plot
+says so. The time
 grid contains every breakpoint of the piecewise-linear waveforms, so the plotted
 peaks are the model's exact peaks.
 """
@@ -18,11 +21,10 @@ from matplotlib.backends.backend_agg import FigureCanvasAgg
 from matplotlib.figure import Figure
 
 from scanner.board.model import Board
-from scanner.physics.crosstalk import piecewise_peaks, ramp_duration_s
+from scanner.physics.crosstalk import piecewise_peaks, ramp_duration_s, receiver_gain
 from scanner.report import palette
 from scanner.report.overlay import fit_line
 from scanner.scoring.results import Hotspot, ScanResult
-from scanner.rules import receiver_gain
 
 GRID_POINTS = 1200
 FIGURE_WIDTH_IN = 8.0
@@ -76,15 +78,15 @@ def finding_waveforms(result: ScanResult, board: Board, hotspot: Hotspot) -> Fin
     velocity = coeff.velocity_m_per_s[rows]
     rise_time_s = hotspot.rise_time_ns * 1e-9
     ramp_s = float(ramp_duration_s(rise_time_s))
-    gain = receiver_gain(hotspot.termination)
     time_s = _time_grid(length_m / velocity, ramp_s)
     noise = piecewise_peaks(coeff.kb[rows], coeff.kf_s_per_m[rows], length_m, velocity, rise_time_s,
-                            hotspot.swing_v, far_end_receiver="matched", waveforms=True, time_s=time_s)
+                            hotspot.swing_v, termination=hotspot.termination, waveforms=True, time_s=time_s)
     victim = board.net_id(hotspot.victim)
     net_a, net_b = int(runs.net_a[hotspot.run]), int(runs.net_b[hotspot.run])
     aggressor = board.nets[net_b if net_a == victim else net_a]
     edge_v = hotspot.swing_v * np.clip(time_s / ramp_s, 0.0, 1.0)  # the linear ramp of docs/physics.md §3
-    return FindingWaveforms(time_s, gain * noise.near_end_v, gain * noise.far_end_v, edge_v, aggressor, gain)
+    return FindingWaveforms(time_s, noise.near_end_v, noise.far_end_v, edge_v, aggressor,
+                            receiver_gain(hotspot.termination))
 
 
 def _budgets_v(hotspot: Hotspot) -> dict[str, float]:

@@ -136,7 +136,8 @@ def what_if_figure(sweeps: WhatIf, hotspot: Hotspot) -> Figure:
     room_in = 0.9 * FIGURE_IN[0]
     fig.text(0.08, 0.93, fit_line(f"#{hotspot.rank}  what the run would pick up: {hotspot.victim} (victim) ← "
                                   f"{hotspot.aggressor}", room_in, 10), fontsize=10, color=palette.INK, ha="left")
-    fig.text(0.08, 0.87, fit_line("Same model as the scan; the dotted lines are where the run meets its budget. "
+    fig.text(0.08, 0.87, fit_line("Same model as the scan; the dotted lines are the offered fix, re-scored to pass "
+                                  "(within this run's share of its victims' budgets). "
                                   + ("" if sweeps.spacing is not None else "The run couples to the neighbouring "
                                      "layer, so only its length is swept."), room_in, 7.5),
              fontsize=7.5, color="#6b6357", ha="left")

@@ -14,6 +14,7 @@ from dataclasses import dataclass, asdict
 import numpy as np
 
 from scanner.board.roles import NetRoles
+from scanner.scoring.directions import class_pair_rules
 from scanner.rules import Rules
 from scanner.coupling.runs import CoupledRuns
 from scanner.scoring.results import is_waived
@@ -51,26 +52,27 @@ def check_geometric_limits(rules: Rules, roles: NetRoles, runs: CoupledRuns, boa
     limits = [r for r in rules.class_pairs if r.has_geometry]
     if not limits or len(runs) == 0:
         return []
-    names = [c.name for c in roles.classes]
     p = runs.pieces
     order = runs.piece_order
     piece_run = np.repeat(np.arange(len(runs)), np.diff(runs.run_start))
+    ca, cb = roles.class_index[runs.net_a], roles.class_index[runs.net_b]
+    forward = class_pair_rules(limits, roles.classes, ca, cb)
+    backward = class_pair_rules(limits, roles.classes, cb, ca)
     out = []
-    for rule in limits:
-        agg = np.array([n == rule.aggressor_class for n in names])
-        vic = np.array([n == rule.victim_class for n in names])
-        ca, cb = roles.class_index[runs.net_a], roles.class_index[runs.net_b]
-        forward = agg[ca] & vic[cb]
-        backward = agg[cb] & vic[ca]
-        close = (p.spacing_mean_mm[order] <= rule.within_spacing_mm) * p.length_mm[order]
+    # a run meets a rule as aggressor -> victim in either direction; a rule met both ways counts once
+    for rule, is_forward in ((forward, True), (np.where(backward != forward, backward, -1), False)):
+        within = np.array([r.within_spacing_mm for r in limits] + [-np.inf])[rule]
+        most = np.array([r.max_parallel_mm for r in limits] + [np.inf])[rule]
+        close = (p.spacing_mean_mm[order] <= within[piece_run]) * p.length_mm[order]
         parallel = np.bincount(piece_run, weights=close, minlength=len(runs))
-        for r in np.flatnonzero((forward | backward) & (parallel > rule.max_parallel_mm)):
-            a, v = (runs.net_a[r], runs.net_b[r]) if forward[r] else (runs.net_b[r], runs.net_a[r])
+        for r in np.flatnonzero((rule >= 0) & (parallel > most)):
+            limit = limits[rule[r]]
+            a, v = (runs.net_a[r], runs.net_b[r]) if is_forward else (runs.net_b[r], runs.net_a[r])
             out.append(GeometricFinding(
                 status="fail", aggressor=board.nets[a], victim=board.nets[v],
-                aggressor_class=rule.aggressor_class, victim_class=rule.victim_class,
+                aggressor_class=limit.aggressor_class, victim_class=limit.victim_class,
                 layers=[board.layers[i].name for i in runs.layers_of(int(r))],
-                parallel_mm=round(float(parallel[r]), 3), max_parallel_mm=rule.max_parallel_mm,
-                within_spacing_mm=rule.within_spacing_mm, min_spacing_mm=round(float(runs.spacing_min_mm[r]), 4),
+                parallel_mm=round(float(parallel[r]), 3), max_parallel_mm=limit.max_parallel_mm,
+                within_spacing_mm=limit.within_spacing_mm, min_spacing_mm=round(float(runs.spacing_min_mm[r]), 4),
                 x_mm=round(float(runs.worst_x_mm[r]), 3), y_mm=round(float(runs.worst_y_mm[r]), 3), run=int(r)))
     return sorted(out, key=lambda g: -g.parallel_mm / g.max_parallel_mm)

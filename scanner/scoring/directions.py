@@ -65,14 +65,11 @@ def directed_runs(rules: Rules, roles: NetRoles, runs: CoupledRuns, keep: np.nda
     table = lambda f: np.array([f(c) for c in classes], dtype=float)  # per-class values, then gathered
     next_budget = table(NetClass.next_budget_v)[vic_c]
     fext_budget = table(NetClass.fext_budget_v)[vic_c]
-    for rule in rules.class_pairs:
-        if not rule.has_budget:
-            continue
-        a = [i for i, c in enumerate(classes) if c.name == rule.aggressor_class]
-        v = [i for i, c in enumerate(classes) if c.name == rule.victim_class]
-        hit = np.isin(agg_c, a) & np.isin(vic_c, v)
+    rule_of = class_pair_rules([r for r in rules.class_pairs if r.has_budget], classes, agg_c, vic_c)
+    for k, rule in enumerate(r for r in rules.class_pairs if r.has_budget):
+        hit = rule_of == k
         if hit.any():
-            nb, fb = rule.budgets_v(classes[v[0]])
+            nb, fb = rule.budgets_v(classes[int(vic_c[np.argmax(hit)])])
             next_budget[hit], fext_budget[hit] = nb, fb
     counts = np.diff(runs.run_start)[run]
     return DirectedRuns(
@@ -82,6 +79,28 @@ def directed_runs(rules: Rules, roles: NetRoles, runs: CoupledRuns, keep: np.nda
         receiver_gain=table(lambda c: c.receiver_gain)[vic_c],
         next_budget_v=next_budget, fext_budget_v=fext_budget,
         piece_rows=runs.piece_order[_expand(runs.run_start[run], counts)], piece_start=_starts(counts))
+
+
+def class_pair_rules(pair_rules, classes, aggressor_class: np.ndarray, victim_class: np.ndarray) -> np.ndarray:
+    """Per (aggressor class index, victim class index): the index in ``pair_rules`` of the rule for that pair,
+    or -1. One lookup in a sorted table, so the cost grows with the rules plus the runs, not their product."""
+    index: dict[str, list[int]] = {}
+    for i, c in enumerate(classes):
+        index.setdefault(c.name, []).append(i)
+    n = len(classes)
+    keys, which = [], []
+    for k, rule in enumerate(pair_rules):
+        for a in index.get(rule.aggressor_class, []):
+            for v in index.get(rule.victim_class, []):
+                keys.append(a * n + v)
+                which.append(k)
+    if not keys:
+        return np.full(len(aggressor_class), -1, dtype=np.int64)
+    order = np.argsort(keys)
+    keys, which = np.asarray(keys, dtype=np.int64)[order], np.asarray(which, dtype=np.int64)[order]
+    wanted = np.asarray(aggressor_class, dtype=np.int64) * n + np.asarray(victim_class, dtype=np.int64)
+    at = np.minimum(np.searchsorted(keys, wanted), len(keys) - 1)
+    return np.where(keys[at] == wanted, which[at], -1)
 
 
 def directed_noise(d: DirectedRuns, kb, kf, length_m, velocity):

@@ -3,21 +3,25 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
+import numpy as np
+
 from scanner.board.layerstack import BoardEnvironments
 from scanner.board.model import Board
 from scanner.board.references import describe_reference
 from scanner.board.roles import NetRoles
 from scanner.coupling.layer_impedance import SignalLayerRow
 from scanner.coupling.stage import RUN_GAP_MM, CoupledSet
+from scanner.input_limits import check_finite
 from scanner.rules import Rules
 from scanner.scoring.class_limits import GeometricFinding, check_geometric_limits
 from scanner.scoring.coverage import coverage_and_gaps
 from scanner.scoring.directions import DirectedRuns, directed_runs
-from scanner.scoring.findings import hotspot_records, victim_totals, with_exact_checks
-from scanner.scoring.fixes import fix_guidance
+from scanner.scoring.findings import hotspot_records, listed_runs, victim_totals, with_exact_checks
+from scanner.scoring.fix_plans import plan_fixes
 from scanner.scoring.impedance import ImpedanceCheck
-from scanner.scoring.noise import Noise, listed_rows, score_noise
+from scanner.scoring.noise import Noise, score_noise
 from scanner.scoring.results import Hotspot, ScanResult, VictimTotal, rounded
+from scanner.scoring.totals import victim_sums
 from scanner.signoff.waiver_marks import Waived, apply_waivers, mark_geometric, mark_hotspots
 
 
@@ -34,21 +38,23 @@ class Scored:
 
 
 def score_runs(board: Board, rules: Rules, roles: NetRoles, env: BoardEnvironments, coupled: CoupledSet) -> Scored:
-    """Directions, noise against budgets, class-pair limits, waivers, fix guidance for warn/fail, records,
-    victim totals (waived contributions left out)."""
+    """Directions, noise against budgets, class-pair limits, waivers, victim sums (waived contributions left
+    out), fix plans, records."""
     runs = coupled.runs
     directed = directed_runs(rules, roles, runs, coupled.kept)
     noise = score_noise(rules, roles, directed, runs, coupled.coefficients)
+    check_finite(np.concatenate([noise.next_v, noise.fext_v, noise.used]), "predicted NEXT and FEXT")
     geometric = check_geometric_limits(rules, roles, runs, board)
     waived = apply_waivers(rules.waivers, board, roles, directed, noise, geometric, runs)
-    listed = listed_rows(noise, rules)
+    sums = victim_sums(rules, roles, directed, noise, waived.directions.covered)
     c = coupled.coefficients
-    fixes = fix_guidance(directed, listed[noise.status[listed] > 0], runs, coupled.lookup, board,
-                         (c.kb, c.kf_s_per_m, c.velocity_m_per_s), coupled.broadside_runs)
-    hotspots = hotspot_records(board, roles, env.signal, runs, directed, noise, listed, fixes, coupled.broadside_runs)
+    plans = plan_fixes(rules, roles, directed, noise, sums, runs, coupled.lookup, board,
+                       (c.kb, c.kf_s_per_m, c.velocity_m_per_s), coupled.broadside_runs)
+    listed = listed_runs(rules, directed, noise, plans, len(runs))
+    hotspots = hotspot_records(board, roles, env.signal, runs, directed, noise, listed, plans, coupled.broadside_runs)
     hotspots = with_exact_checks(hotspots, runs, env.signal, coupled.broadside_runs)
     mark_hotspots(hotspots, rules.waivers, waived.directions)
-    victims = victim_totals(board, rules, roles, directed, noise, waived.directions)
+    victims = victim_totals(board, rules, roles, runs, directed, noise, sums, hotspots, plans, waived.directions)
     geometric = mark_geometric(geometric, rules.waivers, waived.geometric, runs)
     return Scored(directed, noise, hotspots, victims, geometric, waived)
 
@@ -71,11 +77,13 @@ def build_result(board: Board, rules: Rules, roles: NetRoles, env: BoardEnvironm
                   "run_gap_mm": RUN_GAP_MM,
                   "budget_basis": rules.scan.budget_basis,
                   "differential_aggressor": rules.scan.differential_aggressor,
+                  "pair_by_geometry": rules.scan.pair_by_geometry,
                   "search_distance_by_layer_mm": {board.layers[i].name: round(mm, 4)
                                                   for i, mm in coupled.search_by_layer_mm.items()},
                   "broadside_layer_pairs": [f"{board.layers[a].name}/{board.layers[b].name}" for a, b in env.broadside],
                   "cross_section_solves": coupled.solves},
         hotspots=scored.hotspots, victims=scored.victims, geometric=scored.geometric, warnings=warnings,
+        pairs=coupled.roles.pairs(board.nets),
         runs=coupled.runs, piece_coefficients=coupled.coefficients, lookup=coupled.lookup,
         summary=_summary(scored.noise, scored.hotspots, scored.victims, coupled.runs, coupled.kept)
         | {"list_floor": rules.scan.list_floor, "findings_waived": int(scored.waived.directions.covered.sum()),
@@ -119,5 +127,7 @@ def _summary(noise: Noise, hotspots, victims, runs, keep) -> dict:
             "findings": int(alive.sum()), "findings_fail": int((alive & (noise.status == 2)).sum()),
             "findings_warn": int((alive & (noise.status == 1)).sum()),
             "hotspots_listed": len(hotspots),
+            "hotspots_fail": sum(h.status == "fail" for h in hotspots),
+            "hotspots_warn": sum(h.status == "warn" for h in hotspots),
             "victims": len(victims), "victims_fail": count["fail"], "victims_warn": count["warn"],
             "victims_pass": count["pass"]}

@@ -60,7 +60,7 @@ def compare_reports(old: dict, new: dict, old_source: str, new_source: str,
 def _read(report: dict, source: str) -> tuple[dict[tuple, list[Entry]], dict]:
     """The report's findings grouped by kind and net pair, and its victims' states."""
     try:
-        entries, victims = finding_entries(report), victim_states(report)
+        entries, victims = finding_entries(report, every_direction=False), victim_states(report)
     except (KeyError, TypeError, ValueError, IndexError) as exc:
         raise InputError(f"a finding or victim record lacks or mangles a field ({exc!r})", source) from None
     grouped = defaultdict(list)

@@ -32,17 +32,17 @@ def _waiver_reasons(result: ScanResult, ids: list[str]) -> str:
 
 def _victim_case(suite: ET.Element, result: ScanResult, v) -> str:
     case = _case(suite, f"nearfar.victims.{v.net_class}", v.net)
-    used = (f"{100 * v.budget_used:.0f} % of its budget ({v.next_worst_mv:.4g} mV NEXT against "
+    used = (f"{v.budget_used_pct:.0f} % of its budget ({v.next_worst_mv:.4g} mV NEXT against "
             f"{v.next_budget_mv:.4g} mV, {v.fext_worst_mv:.4g} mV FEXT against {v.fext_budget_mv:.4g} mV)")
     waived = f"; waived aggressors {', '.join(v.waived_aggressors)}" if v.waived_aggressors else ""
     if v.status == "fail":
         failure = ET.SubElement(case, "failure", type="over-budget", message=_text(f"{v.net} uses {used}"))
-        failure.text = _text(f"aggressors: {', '.join(dict.fromkeys(v.aggressors))}{waived}")
+        failure.text = _text(f"aggressors: {', '.join(dict.fromkeys(a['aggressor'] for a in v.aggressors))}{waived}")
         return "failure"
     if v.status_with_waived == "fail":
         ET.SubElement(case, "skipped", message=_text(
             f"waived: {_waiver_reasons(result, v.waivers)}; with the waived aggressors it would use "
-            f"{100 * v.budget_used_with_waived:.0f} % of its budget"))
+            f"{v.budget_used_with_waived_pct:.0f} % of its budget"))
         return "skipped"
     ET.SubElement(case, "system-out").text = _text(f"{v.status}: {used}{waived}")
     return "pass"

@@ -72,15 +72,21 @@ def _budget_used_pct(record: dict) -> float:
     return float(record["budget_used_pct"]) if "budget_used_pct" in record else 100 * float(record["budget_used"])
 
 
-def finding_entries(report: dict) -> list[Entry]:
-    """The report's listed noise findings and geometric findings."""
+def finding_entries(report: dict, every_direction: bool = True) -> list[Entry]:
+    """The report's listed noise findings and geometric findings.
+
+    A noise record is one coupled run holding both directions (schema 2): one entry per direction, worse
+    first and sharing the run's rank, or with ``every_direction`` false only the worse one (a run compared
+    as a whole). Older reports hold one direction per record."""
     out = []
     for h in report.get("hotspots", []):
-        waiver = h.get("waiver") or {}
-        out.append(Entry("noise", tuple(sorted((h["victim"], h["aggressor"]))), h["victim"], h["aggressor"],
-                         h["layer"], tuple(h.get("layers") or [h["layer"]]), h["x_mm"], h["y_mm"], tuple(h["bbox_mm"]),
-                         h["status"], waiver.get("state") == "waived", _budget_used_pct(h), h["coupled_length_mm"],
-                         h["min_spacing_mm"], h.get("rank")))
+        directions = h.get("directions") or [h]
+        for d in directions if every_direction else directions[:1]:
+            waiver = d.get("waiver") or {}
+            out.append(Entry("noise", tuple(sorted((d["victim"], d["aggressor"]))), d["victim"], d["aggressor"],
+                             h["layer"], tuple(h.get("layers") or [h["layer"]]), h["x_mm"], h["y_mm"],
+                             tuple(h["bbox_mm"]), d["status"], waiver.get("state") == "waived", _budget_used_pct(d),
+                             h["coupled_length_mm"], h["min_spacing_mm"], h.get("rank")))
     for k, g in enumerate(report.get("geometric", []), 1):
         waiver = g.get("waiver") or {}
         out.append(Entry("geometric", tuple(sorted((g["victim"], g["aggressor"]))), g["victim"], g["aggressor"],
@@ -105,4 +111,5 @@ def victim_states(report: dict) -> dict[str, VictimState]:
 
 def coupled_pairs(report: dict) -> set[tuple[str, str]]:
     """(victim, aggressor) of every scored finding, listed or not (from the victims' aggressor lists)."""
-    return {(v["net"], a) for v in report.get("victims", []) for a in v.get("aggressors", [])}
+    return {(v["net"], a["aggressor"] if isinstance(a, dict) else a)
+            for v in report.get("victims", []) for a in v.get("aggressors", [])}

@@ -50,12 +50,13 @@ def waiver_mark(w: Waiver, covered: bool, lapse: int, length_mm: float, spacing_
 
 
 def mark_hotspots(hotspots: list, waivers: tuple[Waiver, ...], match: WaiverMatch) -> None:
-    """Set each listed hotspot's ``waiver`` from the direction it was built from."""
+    """Set the ``waiver`` of each direction of each listed hotspot (one coupled run) from its directed run."""
     for h in hotspots:
-        w = int(match.waiver[h.direction])
-        if w >= 0:
-            h.waiver = waiver_mark(waivers[w], bool(match.covered[h.direction]), int(match.lapse[h.direction]),
-                                   h.coupled_length_mm, h.min_spacing_mm, h.budget_used)
+        for d in h.directions:
+            w = int(match.waiver[d.index])
+            if w >= 0:
+                d.waiver = waiver_mark(waivers[w], bool(match.covered[d.index]), int(match.lapse[d.index]),
+                                       h.coupled_length_mm, h.min_spacing_mm, d.budget_used_pct / 100)
 
 
 def mark_geometric(geometric: list, waivers: tuple[Waiver, ...], match: WaiverMatch, runs) -> list:

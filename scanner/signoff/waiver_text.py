@@ -22,10 +22,9 @@ def waiver_lines(result) -> list[str]:
                      f"{w['accepted_on']})")
         if w["note"]:
             lines.append(f"  {'':<{width}}            {w['note']}")
-    lapsed = [h for h in result.hotspots if h.waiver and not h.waived]
-    lapsed += [g for g in result.geometric if g.waiver and not g.waived]
-    for f in lapsed[:LAPSED_SHOWN]:
-        label = f"#{f.rank}" if hasattr(f, "rank") else "geometric"
+    lapsed = [(f"#{h.rank}", d) for h in result.hotspots for d in h.directions if d.waiver and not d.waived]
+    lapsed += [("geometric", g) for g in result.geometric if g.waiver and not g.waived]
+    for label, f in lapsed[:LAPSED_SHOWN]:
         lines.append(f"  {label} {f.victim} <- {f.aggressor}: {f.waiver['note']}")
     if len(lapsed) > LAPSED_SHOWN:
         lines.append(f"  … {len(lapsed) - LAPSED_SHOWN} more findings with a lapsed waiver (report.json, 'waiver')")

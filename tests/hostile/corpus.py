@@ -348,7 +348,7 @@ def absurd_arc_centre(tmp):
 
 @case
 def absurd_aperture(tmp):
-    return top_case(tmp, "G01*", ["%ADD20C,1000000000*%"], "beyond the limit")
+    return top_case(tmp, "G01*", ["%ADD20C,1000000000*%"], "outside the aperture size range")
 
 
 @case

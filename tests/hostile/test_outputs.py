@@ -115,19 +115,19 @@ def test_value_not_finite_is_refused_before_anything_is_written(previous, board,
 
     def overflowing(*args, **kwargs):
         result = scan(*args, **kwargs)
-        result.hotspots[0].next_mv = float("inf")
+        result.hotspots[0].directions[0].next_mv = float("inf")
         return result
     monkeypatch.setattr(scanner.commands.scan, "scan", overflowing)
     for args in (["--out", out_dir, *QUICK], ["--json"]):
         code, out, err = run_main(["scan", board, *args], capsys)
         assert code == 4 and out == ""
-        assert err == "nearfar: internal error: report.json: hotspots[0].next_mv (inf) is not a finite number; " \
+        assert err == "nearfar: internal error: report.json: hotspots[0].directions[0].next_mv (inf) is not a finite number; " \
                       "nothing was written\n"
     assert tree_digest(out_dir) == digest and debris(out_dir.parent) == []
 
 
 def test_inspect_json_never_holds_nan(board, capsys, monkeypatch):
-    def with_nan(the_board):
+    def with_nan(the_board, rules=None):
         return {"layers": [{"fill_ratio": float("nan")}]}
     monkeypatch.setattr(scanner.commands.inspect, "inspect_data", with_nan)
     code, out, err = run_main(["inspect", board, "--json"], capsys)
@@ -186,7 +186,7 @@ def test_csv_cells_a_spreadsheet_would_run_are_neutralised(board):
     exports usually do (common practice, the OWASP advice on CSV injection, from memory); numbers stay numbers."""
     result = scan(load_board(board))
     names = ["=HYPERLINK(\"http://x\")", "+1+1", "-5V", "@SUM(A1)", "\tTAB", "\rCR"]
-    first = result.hotspots[0]
+    first = result.hotspots[0].directions[0]
     rows = []
     for name in names:
         first.victim = first.aggressor = name

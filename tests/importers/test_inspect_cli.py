@@ -106,6 +106,28 @@ def test_errors_survive_parallel_parsing(tmp_path, capsys, monkeypatch):
     assert code == 2 and "board-top.gbr:" in err and "truncated" in err
 
 
+def test_demo_nets_with_class_role_and_pair(tmp_path, capsys):
+    from pathlib import Path
+    root = Path(__file__).resolve().parents[2]
+    rules = tmp_path / "typo.toml"
+    # the demo rules with one class pattern mistyped: CTL_* written CTRL_*
+    rules.write_text((root / "fixtures/demo-rules.toml").read_text().replace('"CTL_*"', '"CTRL_*"'))
+    code, out, _ = _main(["inspect", str(root / "fixtures/demo-board/x2"), "--rules", str(rules), "--json"], capsys)
+    assert code == 0
+    data = json.loads(out)
+    nets = {n["name"]: n for n in data["net_list"]}
+    assert len(nets) == data["nets"]
+    assert nets["USB_P"] == {"name": "USB_P", "class": "diff-links", "role": "signal", "pair": "USB_N",
+                             "pair_source": "name"}
+    assert nets["GND"]["role"] in ("power", "plane") and nets["GND"]["pair"] is None
+    assert nets["CTL_LED"]["class"] == "default"  # the typo leaves it unclassed ...
+    warning = next(w for w in data["warnings"] if "CTRL_*" in w)
+    assert "matches no net" in warning and "CTL_LED" in warning  # ... and the warning names the nearest nets
+    assert {"p": "LVDS_P", "n": "LVDS_N", "source": "name"} in data["pairs"]
+    code, text, _ = _main(["inspect", str(root / "fixtures/demo-board/x2"), "--rules", str(rules)], capsys)
+    assert "differential pairs (2" in text and "USB_N (name)" in text and "CTRL_*" in text
+
+
 def test_each_layer_shows_its_reference(tmp_path, capsys):
     # two signal layers, no plane: each is referenced to the other side of the board (L02 carries a pour)
     folder = write_board(tmp_path, x2=False)

@@ -15,7 +15,7 @@ def pair(spacing_mm, env=MICROSTRIP, thickness_mm=0.035):
     return solve_cross_section(traces_on_layer(*env, [0.15, 0.15], [spacing_mm], thickness_mm))
 
 
-def weak_waveforms(m, lengths, kbkf, response, swing, receiver="matched", oversample=16):
+def weak_waveforms(m, lengths, kbkf, response, swing, termination="matched", oversample=16):
     """Weak-coupling waveforms on the simulation's time grid, with its Gaussian corner rounding applied.
 
     The weak-coupling far-end pulse has sharp edges, so it is built on a finer grid before rounding.
@@ -24,7 +24,7 @@ def weak_waveforms(m, lengths, kbkf, response, swing, receiver="matched", oversa
     t = np.arange(len(response.time_s) * oversample) * dt - response.edge_start_s
     pieces = dict(kb=[c[0] for c in kbkf], kf=[c[1] for c in kbkf], length_m=lengths,
                   velocity_m_per_s=[m_.velocity(0) for m_ in m], rise_time_s=TR, swing_v=swing,
-                  far_end_receiver=receiver)
+                  termination=termination)
     half = int(6 * response.rounding_s / dt)
     kernel = np.exp(-0.5 * (np.arange(-half, half + 1) * dt / response.rounding_s) ** 2)
     kernel /= kernel.sum()
@@ -63,6 +63,7 @@ def test_exact_near_end_noise_saturates():
 
 
 def test_high_impedance_receiver_roughly_doubles_far_end_noise():
+    # victim driven from the same end as the aggressor (matched source there), received at the far end
     m = pair(0.3)
     z0 = m.z0(0)
     matched = simulate_coupled_lines([LineSection(m, 0.05)], z0, z0, 0, TR, 2.0)
@@ -70,8 +71,21 @@ def test_high_impedance_receiver_roughly_doubles_far_end_noise():
     ratio = open_end.far_end_v[1].min() / matched.far_end_v[1].min()
     assert 1.9 < ratio < 2.1  # docs/physics.md §4: the far end sees roughly double
     weak_peak = piecewise_peaks(*coupling_coefficients(m, 0, 1), 0.05, m.velocity(0), TR, 1.0,
-                                far_end_receiver="high_z").fext_v
+                                termination="high-z-receiver").fext_v
     assert open_end.far_end_v[1].min() == pytest.approx(weak_peak, rel=0.05)
+
+
+def test_receiver_at_the_near_end_sees_double_the_near_end_noise():
+    # victim driven from the far end (matched source there), received at the aggressor's driver end: the
+    # scan's NEXT figure for a high-z-receiver (docs/physics.md, terminations) against the full line equations
+    m = pair(0.3)
+    z0 = m.z0(0)
+    open_near = simulate_coupled_lines([LineSection(m, 0.05)], [z0, 1e6], z0, 0, TR, 2.0)
+    weak = piecewise_peaks(*coupling_coefficients(m, 0, 1), 0.05, m.velocity(0), TR, 1.0,
+                           termination="high-z-receiver")
+    assert open_near.near_end_v[1].max() == pytest.approx(weak.next_v, rel=0.05)
+    # and the far-end wave is absorbed by the victim's driver: nothing like the doubled FEXT reaches it
+    assert np.max(np.abs(open_near.far_end_v[1])) < 0.7 * abs(weak.fext_v)
 
 
 def test_cascaded_sections_match_piecewise_weak_coupling():

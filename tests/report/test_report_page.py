@@ -114,8 +114,10 @@ def test_sections_come_in_the_order_an_engineer_reads_them(report_dir):
 def test_fix_first_starts_with_the_victim_most_over_budget(report_dir, demo_scan):
     result, _ = demo_scan
     page = read((report_dir / "report.html").read_text(encoding="utf-8"))
-    worst = max((v for v in result.victims if v.status == "fail"), key=lambda v: v.budget_used)
-    worst_run = next(h for h in result.hotspots if h.victim == worst.net)
+    worst = max((v for v in result.victims if v.status == "fail"), key=lambda v: v.budget_used_pct)
+    # the victim's worst run: the largest share among the runs' directions into it (a run holds both directions)
+    worst_run = max((h for h in result.hotspots if any(d.victim == worst.net for d in h.directions)),
+                    key=lambda h: max(d.budget_used_pct for d in h.directions if d.victim == worst.net))
     assert page.first_rows["fix-first"]["data-run"] == str(worst_run.run)
     assert page.rows["fix-first"] == sum(1 for v in result.victims if v.status == "fail") + \
         sum(1 for g in result.geometric if g.status == "fail")
@@ -132,7 +134,9 @@ def test_settings_are_described_in_words(report_dir):
 def test_net_names_are_escaped(demo_scan, tmp_path):
     result, board = demo_scan
     nasty = 'CLK<b class="x">&amp;\'"'
-    hotspots = [replace(result.hotspots[0], victim=nasty, aggressor="</script><script>alert(1)</script>")]
+    first = result.hotspots[0]
+    worse = replace(first.directions[0], victim=nasty, aggressor="</script><script>alert(1)</script>")
+    hotspots = [replace(first, directions=[worse] + first.directions[1:])]
     page_html = render_page(replace(result, hotspots=hotspots + result.hotspots[1:]), tmp_path, board)
     page = read(page_html)
     assert not page.errors

@@ -8,7 +8,7 @@ import pytest
 from scanner.coupling.finder import CoupledPieces
 from scanner.coupling.runs import build_runs
 from scanner.coupling.coefficients import PieceCoefficients
-from scanner.scoring.results import Hotspot
+from scanner.scoring.results import Direction, Hotspot
 from scanner.report.waveplot import ODD_MODE, finding_waveforms, scenarios, wave_figure
 
 
@@ -30,7 +30,7 @@ def test_high_impedance_receiver_doubles_what_arrives(demo_scan):
     result, board = demo_scan
     h = next(h for h in result.hotspots if h.termination == "high-z-receiver" and abs(h.fext_mv) > 1)
     open_end = finding_waveforms(result, board, h)
-    matched = finding_waveforms(result, board, replace(h, termination="matched"))
+    matched = finding_waveforms(result, board, with_worse(h, termination="matched"))
     # an open (high-impedance) input doubles the arriving wave (reflection coefficient +1): common practice
     assert open_end.far_end_peak_v == pytest.approx(2 * matched.far_end_peak_v, rel=1e-9)
     assert open_end.near_end_peak_v == pytest.approx(2 * matched.near_end_peak_v, rel=1e-9)
@@ -44,14 +44,20 @@ def uniform_run(length_mm=100.0, kb=0.04, kf=-2e-10, velocity=1.5e8, rise_ns=0.4
     result = SimpleNamespace(runs=runs, piece_coefficients=PieceCoefficients(np.array([kb]), np.array([kf]),
                                                                                np.array([velocity])))
     board = SimpleNamespace(nets=["A", "B"], net_id=["A", "B"].index)
-    hotspot = Hotspot(rank=1, status="fail", victim="A", aggressor="B", victim_class="x", aggressor_class="x",
-                      aggressor_model="single", layer="L1", layers=["L1"], structure="microstrip",
-                      coupled_length_mm=length_mm, min_spacing_mm=0.2, mean_spacing_mm=0.2, x_mm=50.0, y_mm=0.0,
-                      extent_mm=[0.0, 0.0, length_mm, 0.0], bbox_mm=[0.0, 0.0, length_mm, 0.0], next_mv=0.0,
-                      fext_mv=0.0, next_pct=0.0, fext_pct=0.0, next_budget_mv=50.0, fext_budget_mv=30.0,
-                      budget_used=1.0, kb_max=kb, strong_coupling=False, rise_time_ns=rise_ns, swing_v=swing,
-                      termination="matched", victim_swing_v=swing, run=0, direction=0)
+    direction = Direction(status="fail", victim="A", aggressor="B", victim_class="x", aggressor_class="x",
+                          aggressor_model="single", next_mv=0.0, fext_mv=0.0, next_pct=0.0, fext_pct=0.0,
+                          next_budget_mv=50.0, fext_budget_mv=30.0, budget_used_pct=100.0, rise_time_ns=rise_ns,
+                          swing_v=swing, termination="matched", victim_swing_v=swing, index=0)
+    hotspot = Hotspot(rank=1, id="A|B|L1|50.0,0.0", status="fail", budget_used_pct=100.0, layer="L1", layers=["L1"],
+                      structure="microstrip", coupled_length_mm=length_mm, min_spacing_mm=0.2, mean_spacing_mm=0.2,
+                      x_mm=50.0, y_mm=0.0, extent_mm=[0.0, 0.0, length_mm, 0.0], bbox_mm=[0.0, 0.0, length_mm, 0.0],
+                      kb_max=kb, strong_coupling=False, directions=[direction], run=0)
     return result, board, hotspot
+
+
+def with_worse(h: Hotspot, **changes) -> Hotspot:
+    """The finding with its worse direction changed."""
+    return replace(h, directions=[replace(h.directions[0], **changes)] + h.directions[1:])
 
 
 def test_uniform_run_gives_the_weak_coupling_shapes():
@@ -74,6 +80,16 @@ def test_uniform_run_gives_the_weak_coupling_shapes():
         pytest.approx(0.8 * 2.0, rel=1e-6)
 
 
+def test_figure_says_which_end_holds_the_receiver():
+    # docs/physics.md, terminations: each curve is the receiver's voltage in one case, and the legend says which
+    result, board, h = uniform_run()
+    high_z = with_worse(h, termination="high-z-receiver")
+    fig = wave_figure(finding_waveforms(result, board, high_z), high_z)
+    titles = " ".join(ax.get_title(loc="left") for ax in fig.axes)
+    assert "Receiver at the near end (victim driven from the far end)" in titles
+    assert "Receiver at the far end (victim driven from the same end as the aggressor)" in titles
+
+
 def test_figure_shows_both_budgets_and_the_edge():
     result, board, h = uniform_run()
     fig = wave_figure(finding_waveforms(result, board, h), h)
@@ -90,7 +106,7 @@ def test_figure_shows_both_budgets_and_the_edge():
 
 def test_odd_mode_finding_names_the_member_its_run_belongs_to():
     result, board, h = uniform_run()
-    odd = replace(h, aggressor="B / B_N", aggressor_model=ODD_MODE)
+    odd = with_worse(h, aggressor="B / B_N", aggressor_model=ODD_MODE)
     waves = finding_waveforms(result, board, odd)
     assert waves.aggressor == "B"
     texts = " ".join(t.get_text() for t in wave_figure(waves, odd).texts)

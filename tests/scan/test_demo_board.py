@@ -28,8 +28,8 @@ def test_planted_failures_are_found(result, case):
     if case["basis"] == "geometric":
         assert any({g.victim, g.aggressor} == {a, b} for g in result.geometric)
     hits = findings(result, a, b)
-    assert hits and max(h.budget_used for h in hits) > 1.0
-    worst = max(hits, key=lambda h: h.budget_used)
+    assert hits and max(h.budget_used_pct for h in hits) > 100
+    worst = max(hits, key=lambda h: h.budget_used_pct)
     assert worst.status == "fail" and f"L0{case['layer'][1:]}" in worst.layers
     assert worst.min_spacing_mm == pytest.approx(case["gap_mm"], abs=0.005)
     assert worst.fix and worst.fix["spacing_needed_mm"] > case["gap_mm"]
@@ -38,7 +38,7 @@ def test_planted_failures_are_found(result, case):
 @pytest.mark.parametrize("case", [p for p in PLANTED if p["expect"] == "pass" and p["layer"] != "L3"],
                          ids=lambda p: p["case"])
 def test_planted_passes_stay_within_budget(result, case):
-    assert all(h.budget_used <= 1.0 for h in findings(result, *case["nets"]))
+    assert all(d.budget_used_pct <= 100 for h in findings(result, *case["nets"]) for d in h.directions)
 
 
 @pytest.mark.parametrize("case", [p for p in PLANTED if p["expect"] in ("ignored", "absent")],
@@ -63,7 +63,7 @@ def test_stripline_part_of_the_bus_has_near_zero_far_end_coupling(result):
 
 
 def test_ranking_puts_failures_first(result):
-    used = [h.budget_used for h in result.hotspots]
+    used = [h.budget_used_pct for h in result.hotspots]
     assert used == sorted(used, reverse=True)
     statuses = [h.status for h in result.hotspots]
     assert statuses.index("pass") > max(i for i, s in enumerate(statuses) if s == "fail")
@@ -73,10 +73,13 @@ def test_ranking_puts_failures_first(result):
 def test_report_json_shape(result):
     d = result.to_dict()
     assert d["schema"] == "nearfar.report/2"
-    for key in ("rank", "victim", "aggressor", "layer", "coupled_length_mm", "min_spacing_mm", "mean_spacing_mm",
-                "x_mm", "y_mm", "next_pct", "fext_pct", "next_mv", "fext_mv", "status"):
+    for key in ("rank", "id", "status", "budget_used_pct", "layer", "coupled_length_mm", "min_spacing_mm",
+                "mean_spacing_mm", "x_mm", "y_mm", "directions", "fix"):
         assert key in d["hotspots"][0]
-    for key in ("net", "next_worst_pct", "fext_worst_pct", "aggressors", "status"):
+    for key in ("victim", "aggressor", "next_pct", "fext_pct", "next_mv", "fext_mv", "status", "budget_used_pct"):
+        assert key in d["hotspots"][0]["directions"][0]
+    for key in ("net", "next_worst_pct", "fext_worst_pct", "aggressors", "status", "budget_used_pct", "fix"):
         assert key in d["victims"][0]
+    assert {"p": "USB_P", "n": "USB_N", "source": "name"} in d["pairs"]
     assert d["stackup"]["source"] == "job-file" and d["rules"]["source"].endswith("demo-rules.toml")
     json.dumps(d, allow_nan=False)

@@ -57,11 +57,13 @@ def test_full_file_parses(tmp_path):
     ("[scan]\nmin_coupled_length_mm = \"long\"\n", "must be float"),
     ("[[class]]\nname = \"x\"\n", "needs 'name' and 'nets'"),
     ("[[class]]\nname = \"x\"\nnets = [\"A*\"]\ntermination = \"open\"\n", "termination must be one of"),
-    ("[[class]]\nname = \"x\"\nnets = [\"A*\"]\nrise_time_ns = -1\n", "must be positive"),
+    ("[[class]]\nname = \"x\"\nnets = [\"A*\"]\nrise_time_ns = -1\n", "rise_time_ns -1 ns is outside the rise time range"),
     ("colour = 1\n", "unknown key(s) colour"),
-    ("[stackup]\nlayers = [{ kind = \"dielectric\", thickness_mm = 0.1, epsilon_r = 0.5 }]\n", "epsilon_r must be"),
-    ("[stackup]\nlayers = [{ kind = \"copper\", thickness_mm = -0.1 }]\n", "thickness_mm must be"),
+    ("[stackup]\nlayers = [{ kind = \"dielectric\", thickness_mm = 0.1, epsilon_r = 0.5 }]\n", "epsilon_r 0.5 is outside the relative permittivity range"),
+    ("[stackup]\nlayers = [{ kind = \"copper\", thickness_mm = -0.1 }]\n", "thickness_mm -0.1 mm is outside the copper thickness range"),
     ("[[diff_pair]]\npositive = \"A*_P\"\nnegative = \"A_N\"\n", "same number of '*'"),
+    ("[scan]\npair_by_geometry = \"always\"\n", "pair_by_geometry must be one of"),
+    ("[[class]]\nname = \"x\"\nnets = [\"A*\"]\ntermination = \"high_z\"\n", "termination must be one of"),
 ])
 def test_bad_rules_name_the_problem(tmp_path, text, needle):
     p = tmp_path / "r.toml"
@@ -102,3 +104,28 @@ def test_api_functions_survive_their_modules_being_imported():
     import scanner
     import scanner.pipeline  # noqa: F401
     assert callable(scanner.scan) and callable(scanner.load_board)
+
+
+def test_patterns_that_match_no_net_are_warnings_naming_the_nearest_nets():
+    names = ["CTL_RESET", "CTL_LED", "CTL_EN", "DBUS_D0", "USB_P", "USB_N", "VIN"]
+    rules = parse_rules({"class": [{"name": "control", "nets": ["CTRL_*"]}, {"name": "bus", "nets": ["DBUS_*"]}],
+                         "power": {"nets": ["VIN", "VBATT"]},
+                         "diff_pair": [{"positive": "CAM*_P", "negative": "CAM*_N"}]}, "t")
+    warnings = assign_roles(names, rules).warnings
+    assert len(warnings) == 3
+    control = next(w for w in warnings if "'control'" in w)
+    assert "'CTRL_*' matches no net" in control
+    assert all(n in control for n in ("CTL_RESET", "CTL_LED", "CTL_EN")) and "DBUS_D0" not in control
+    assert any("[power]" in w and "'VBATT'" in w and "no net name is close" in w for w in warnings)
+    assert any("[[diff_pair]]" in w and "CAM*_P" in w for w in warnings)
+    # the built-in power patterns matching nothing are not the user's mistake: no warning for them
+    assert not any("GND*" in w for w in warnings)
+
+
+def test_scan_carries_the_pattern_warnings():
+    from scanner import scan
+    from tests.scan.synthetic import board_from, polyline
+    board = board_from({0: polyline([(0, 0), (10, 0)], 0)}, ["CTL_LED"])
+    rules = parse_rules({"class": [{"name": "control", "nets": ["CTRL_*"]}]}, "t")
+    result = scan(board, rules)
+    assert any("CTRL_*" in w and "CTL_LED" in w for w in result.warnings)

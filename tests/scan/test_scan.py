@@ -6,6 +6,7 @@ from scanner import scan
 from scanner.physics import CouplingTable
 from scanner.rules import parse_rules
 from tests.scan.synthetic import WIDTH, arc_points, board_from, polyline
+from tests.scan.views import into, seen
 
 NETS = ["FAST_A", "FAST_B", "SLOW_X", "SLOW_Y", "GND", "PAIR_P", "PAIR_N", "FAR_1", "FAR_2", "CROSS_V",
         "CROSS_H", "DIAG_A", "DIAG_B", "ARC_IN", "ARC_OUT", "VAR_A", "VAR_B"]
@@ -49,9 +50,7 @@ def result():
     return scan(planted_board(), RULES)
 
 
-def find(result, victim, aggressor):
-    hits = [h for h in result.hotspots if h.victim == victim and h.aggressor == aggressor]
-    return hits[0] if hits else None
+find = seen
 
 
 def test_straight_run_length_and_spacing(result):
@@ -84,7 +83,7 @@ def test_nonuniform_run_profile(result):
 
 
 def test_pairs_ground_crossings_and_far_nets_are_not_reported(result):
-    names = {(h.victim, h.aggressor) for h in result.hotspots}
+    names = {(d.victim, d.aggressor) for h in result.hotspots for d in h.directions}
     involved = {n for pair in names for n in pair}
     assert not {"PAIR_P", "PAIR_N"} <= involved or ("PAIR_P", "PAIR_N") not in names
     assert ("PAIR_N", "PAIR_P") not in names and ("PAIR_P", "PAIR_N") not in names
@@ -99,7 +98,7 @@ def test_slow_edges_rank_below_fast_edges(result):
     assert slow.next_mv < fast.next_mv
     ranks = [h.rank for h in result.hotspots]
     assert ranks == sorted(ranks)
-    used = [h.budget_used for h in result.hotspots]
+    used = [h.budget_used_pct for h in result.hotspots]
     assert used == sorted(used, reverse=True)
 
 
@@ -128,11 +127,11 @@ def test_victim_totals_sum_all_aggressors():
     b.layers[0].segments = TraceSegments.concat([seg, TraceSegments(*extra.T)])
     r = scan(b, RULES)
     v = next(v for v in r.victims if v.net == "FAST_B")
-    parts = [h for h in r.hotspots if h.victim == "FAST_B"]
+    parts = into(r, "FAST_B")
     assert len(parts) >= 2
-    assert v.next_worst_mv == pytest.approx(sum(abs(h.next_mv) for h in parts), rel=1e-3)
+    assert v.next_worst_mv == pytest.approx(sum(abs(d.next_mv) for d in parts), rel=1e-3)
     assert v.next_rss_pct <= v.next_worst_pct
-    assert set(v.aggressors) == {h.aggressor for h in parts}
+    assert {a["aggressor"] for a in v.aggressors} == {d.aggressor for d in parts}
 
 
 def test_exit_code_follows_victim_status(result):
@@ -152,13 +151,13 @@ def test_differential_aggressor_models():
     base = {"scan": {"search_distance_mm": 0.8, "min_coupled_length_mm": 1.0, "list_floor": 0.0},
             "class": [{"name": "all", "nets": ["*"], "rise_time_ns": 0.5, "swing_v": 1.0, "termination": "matched"}]}
     two = scan(board, parse_rules(base, "two"))
-    legs = {h.aggressor: h for h in two.hotspots if h.victim == "VICTIM"}
+    legs = {d.aggressor: d for d in into(two, "VICTIM")}
     assert set(legs) == {"LINK_P", "LINK_N"}
     assert all(h.aggressor_model == "differential (two lines)" for h in legs.values())
     odd_rules = parse_rules(base | {"scan": base["scan"] | {"differential_aggressor": "odd-mode"}}, "odd")
-    (odd,) = [h for h in scan(board, odd_rules).hotspots if h.victim == "VICTIM"]
+    (odd,) = into(scan(board, odd_rules), "VICTIM")
     assert odd.aggressor_model == "differential (odd mode)" and odd.aggressor == "LINK_P / LINK_N"
     assert odd.next_mv == pytest.approx(abs(legs["LINK_P"].next_mv - legs["LINK_N"].next_mv), abs=2e-3)
     assert odd.next_mv < legs["LINK_P"].next_mv  # the far leg cancels part of the near leg's noise
     # the pair's own members are never scored against each other
-    assert not any({h.victim, h.aggressor} == {"LINK_P", "LINK_N"} for h in two.hotspots)
+    assert not any({d.victim, d.aggressor} == {"LINK_P", "LINK_N"} for h in two.hotspots for d in h.directions)

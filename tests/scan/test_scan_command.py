@@ -22,15 +22,20 @@ def run(args, capsys):
 def test_demo_scan_fails_and_writes_reports(tmp_path, capsys):
     code, out, err = run(["scan", str(DEMO), "--rules", str(RULES), "--out", str(tmp_path), "--no-images"], capsys)
     assert code == 1  # the demo board has planted violations
-    assert "FAIL" in out and "caution:" in out and "CTL_LED" in out
+    assert "Overall: FAIL" in out and "caution:" in out and "CTL_LED" in out
     report = json.loads((tmp_path / "report.json").read_text())
     assert report["schema"] == "nearfar.report/2" and report["hotspots"][0]["rank"] == 1
     with (tmp_path / "hotspots.csv").open() as fh:
         assert fh.readline() == f"# nearfar run {report['run_id']}, {report['created']}\n"
         rows = list(csv.DictReader(fh))
     assert len(rows) == len(report["hotspots"])
-    assert rows[0]["victim"] == report["hotspots"][0]["victim"]
+    assert rows[0]["victim"] == report["hotspots"][0]["directions"][0]["victim"]
+    assert rows[0]["id"] == report["hotspots"][0]["id"]
     assert rows[0]["fix_spacing_needed_mm"] != ""
+    # one vocabulary: budget used in percent in the CSV as in report.json, statuses pass/warn/fail only
+    assert float(rows[0]["budget_used_pct"]) == report["hotspots"][0]["budget_used_pct"] > 100
+    assert {r["status"] for r in rows} <= {"pass", "warn", "fail"}
+    assert " ok " not in out
     assert not list(tmp_path.glob("*.part")) and not list(tmp_path.glob(".*.part"))
 
 

@@ -44,7 +44,7 @@ def test_run_moved_apart_is_better_and_run_moved_closer_is_worse(revisions):
     assert closer["new"]["budget_used_pct"] > closer["old"]["budget_used_pct"]
     assert apart["moved_mm"] < 0.2 and closer["moved_mm"] < 0.3  # the runs' centre lines moved half the shift
     assert c["counts"]["worse"] == 1 and c["counts"]["better"] == 1 and c["counts"]["new"] == 0
-    assert c["counts"]["fixed"] == 0 and c["counts"]["unchanged"] > 40
+    assert c["counts"]["fixed"] == 0 and c["counts"]["unchanged"] > 20  # one entry per coupled run
     assert {v["net"]: (v["old_status"], v["new_status"]) for v in c["victims"]} == {"CTL_PGOOD": ("pass", "fail")}
     assert c["regressed"] and c["schema"] == "nearfar.compare/1" and "estimates" in c["caution"]
 

@@ -2,9 +2,11 @@
 
 Tar entries get the same refusals and limits as zip entries (``scanner.importers.archive``):
 absolute paths or drive letters, ``..``, links (symbolic and hard), device files and
-FIFOs, more than ``MAX_ENTRIES`` entries, more than ``MAX_EXPANDED_BYTES`` expanded
-(counted from the headers and again while writing). A truncated or damaged archive is
-an InputError naming it.
+FIFOs, more than ``MAX_ENTRIES`` entries, a member larger than the file-size limit, more
+than ``MAX_EXPANDED_BYTES`` expanded (counted from the headers and again while writing),
+a compressed archive expanding more than ``MAX_RATIO`` times its size. Long-name and
+extended headers are bounded before they are read. A truncated or damaged archive is an
+InputError naming it.
 """
 from __future__ import annotations
 
@@ -19,6 +21,23 @@ from scanner.importers.archive import extract_archive
 TAR_SUFFIXES = (".tgz", ".tar.gz", ".tar")
 ARCHIVE_SUFFIXES = TAR_SUFFIXES + (".zip",)
 _CHUNK = 1 << 20
+#: largest long-name or extended (pax) header: names and attributes, never megabytes of them
+MAX_HEADER_BYTES = 64 * 1024
+
+
+class _HeaderTooLarge(Exception):
+    """A long-name or extended header record larger than MAX_HEADER_BYTES (its size in bytes)."""
+
+
+class _BoundedHeader(tarfile.TarInfo):
+    """A tar header whose long-name or extended records are refused when larger than MAX_HEADER_BYTES,
+    before tarfile reads them into memory."""
+
+    def _proc_member(self, tf):
+        if self.type in (tarfile.GNUTYPE_LONGNAME, tarfile.GNUTYPE_LONGLINK, tarfile.XHDTYPE, tarfile.XGLTYPE,
+                         tarfile.SOLARIS_XHDTYPE) and self.size > MAX_HEADER_BYTES:
+            raise _HeaderTooLarge(self.size)
+        return super()._proc_member(tf)
 
 
 def is_job_archive(path: Path) -> bool:
@@ -45,8 +64,9 @@ def extract_tar(archive: Path, target: Path) -> None:
     """Extract a (gzip-compressed) tar archive into ``target`` within the board-archive limits."""
     name = str(archive)
     entries = declared = written = 0
+    compressed = archive.stat().st_size
     try:
-        with tarfile.open(archive, "r:*") as tf:
+        with tarfile.open(archive, "r:*", tarinfo=_BoundedHeader) as tf:
             for member in tf:
                 entries += 1
                 if entries > limits.MAX_ENTRIES:
@@ -54,6 +74,8 @@ def extract_tar(archive: Path, target: Path) -> None:
                 rel = _member_path(member, name)
                 if rel is None:
                     continue
+                if (problem := limits.member_size_problem(member.size, f"archive entry {member.name!r}")):
+                    raise InputError(problem, path=name)
                 declared += member.size
                 if declared > limits.MAX_EXPANDED_BYTES:
                     raise InputError(f"archive would expand to more than the limit of {limits.MAX_EXPANDED_BYTES} "
@@ -66,7 +88,12 @@ def extract_tar(archive: Path, target: Path) -> None:
                         if written > limits.MAX_EXPANDED_BYTES:
                             raise InputError(f"archive expands beyond the limit of {limits.MAX_EXPANDED_BYTES} bytes",
                                              path=name)
+                        if (problem := limits.expansion_problem(written, compressed, "the archive")):
+                            raise InputError(problem, path=name)
                         out.write(chunk)
+    except _HeaderTooLarge as exc:
+        raise InputError(f"archive holds a {exc.args[0]:,}-byte name or header record, more than the "
+                         f"{MAX_HEADER_BYTES:,} bytes a header may use", path=name) from None
     except (tarfile.TarError, EOFError, zlib.error, OSError) as exc:
         raise InputError(f"archive is truncated or damaged: {exc}", path=name) from exc
 

@@ -13,9 +13,13 @@ from dataclasses import dataclass
 import numpy as np
 import shapely
 
+from scanner.errors import InputError
 from scanner.importers.apertures import QUAD_SEGS, swept_width_mm
 from scanner.importers.arcs import flatten_arcs
-from scanner.importers.gerber_copper import ZERO_LENGTH_MM, _cut_clear, _translated
+from scanner.importers.gerber_copper import (BYTES_PER_PLACED_SHAPE, ZERO_LENGTH_MM, _cut_clear, _translated,
+                                             placing_bytes)
+from scanner.memory import check_memory
+from scanner.spatial_query import check_index_memory, query_all
 from scanner.importers.odbpp.features import FeatureTable
 from scanner.importers.odbpp.symbols import placed
 
@@ -77,6 +81,9 @@ def _pad_shapes(table: FeatureTable, feature, x, y, sym, rotation, mirror, scale
     """Placed symbol outlines, built once per (symbol, orientation, scale) and copied to every position."""
     geoms = np.empty(len(feature), dtype=object)
     keys = np.rec.fromarrays([sym, rotation, mirror, scale]) if len(feature) else []
+    points = {int(k): shapely.get_num_coordinates(symbol.outline) for k, symbol in table.symbols.items()}
+    check_memory(sum(placing_bytes(int(np.count_nonzero(sym == k)), points[int(k)]) for k in np.unique(sym)),
+                 f"placing {len(feature):,} pads", table.src.name)
     for key in np.unique(keys) if len(feature) else []:
         idx = np.flatnonzero(keys == key)
         template = placed(table.symbols[int(key[0])].outline, float(key[1]), bool(key[2]), float(key[3]))
@@ -92,6 +99,9 @@ def layer_artwork(table: FeatureTable, nets: np.ndarray, via: np.ndarray) -> Lay
     f = draws["feature"]
     zero = np.hypot(draws["x1"] - draws["x0"], draws["y1"] - draws["y0"]) < ZERO_LENGTH_MM
     trace = positive[f] & ~zero
+    if (thin := np.flatnonzero(trace & (draws["width"] <= 0))).size:
+        raise InputError(f"{len(thin):,} line(s) drawn with a symbol of zero size: a conductor needs a width",
+                         path=table.src.name, line=int(table.record_line[f[thin[0]]]))
 
     pads = table.pads
     dot = np.flatnonzero(zero)
@@ -131,10 +141,12 @@ def _note_cleared_traces(table: FeatureTable, draws: dict, trace: np.ndarray, cl
     idx = np.flatnonzero(trace)
     if not len(idx):
         return
+    check_index_memory(len(idx), BYTES_PER_PLACED_SHAPE, "traces under negative features")
     lines = shapely.linestrings(np.stack([np.column_stack([draws["x0"][idx], draws["y0"][idx]]),
                                           np.column_stack([draws["x1"][idx], draws["y1"][idx]])], axis=1))
-    hit_line, hit_clear = shapely.STRtree(clear).query(shapely.buffer(lines, draws["width"][idx] / 2, quad_segs=2),
-                                                       predicate="intersects")
+    grown = shapely.buffer(lines, draws["width"][idx] / 2, quad_segs=2)
+    hit_line, hit_clear = query_all(shapely.STRtree(clear), grown, f"{len(clear):,} negative features over traces",
+                                    keep=lambda q, t: shapely.intersects(grown[q], clear[t]))
     earlier = draws["feature"][idx][hit_line] < clear_order[hit_clear]
     count = len(np.unique(hit_line[earlier]))
     if count:

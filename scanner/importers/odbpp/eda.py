@@ -14,6 +14,7 @@ import numpy as np
 
 from scanner.errors import InputError
 from scanner.importers.odbpp.text import JobFile, integer, read_lines
+from scanner.input_limits import SEGMENTS, check_count, limit
 
 NO_NET_NAME = "$NONE$"
 
@@ -41,6 +42,7 @@ def read_eda(src: JobFile) -> EdaNets:
     nets: list[str] = []
     net, subnet = None, None
     rows: dict[int, list[tuple[int, str, str, int]]] = {}
+    links, most = 0, limit(SEGMENTS)
     for n, raw in enumerate(read_lines(src, "EDA data file"), start=1):
         tokens = raw.partition(";")[0].split()
         if not tokens or tokens[0].startswith("#"):
@@ -69,6 +71,9 @@ def read_eda(src: JobFile) -> EdaNets:
                                  path=src.name, line=n)
             if feature < 0:
                 raise InputError(f"feature link to negative feature number {feature}", path=src.name, line=n)
+            links += 1
+            if links > most:
+                check_count(links, SEGMENTS, "feature links", src.name, n)
             if net != NO_NET_NAME:
                 rows.setdefault(layer, []).append((feature, net, subnet, n))
     links = {}

@@ -17,9 +17,12 @@ import shapely
 
 from scanner.errors import InputError
 from scanner.importers.apertures import arc_poly_polygon
+from scanner.importers.gerber_copper import MEMORY_CHECK_EVERY, check_parse_memory
 from scanner.importers.diagnostics import FileWarnings
 from scanner.importers.odbpp.symbols import Symbol
 from scanner.importers.odbpp.text import UNITS, JobFile, integer, number, read_lines, units_word
+from scanner.input_limits import (MAX_COORDINATE_MM, OBJECTS, SEGMENTS, check_count, check_range, limit,
+                                  range_problem)
 
 #: legacy pad orientations 0..7: (clockwise rotation in degrees, mirrored)
 LEGACY_ORIENT = {k: (90.0 * (k % 4), k >= 4) for k in range(8)}
@@ -83,6 +86,9 @@ class _Parser:
         self.surface = None  # (feature, line, contours) while inside S ... SE
         self.contour = None  # (kind, line, points, arcs) while inside OB ... OE
         self.log = FileWarnings(src.name)
+        self.most_features = limit(OBJECTS)
+        self.contour_points = 0
+        self.most_points = limit(SEGMENTS)
 
     def fail(self, message: str, line: int | None):
         raise InputError(message, path=self.src.name, line=line)
@@ -93,6 +99,10 @@ class _Parser:
     def feature(self, positive_token: str, line: int, attrs: str) -> int:
         if positive_token not in ("P", "N"):
             self.fail(f"polarity must be P or N, found {positive_token!r}", line)
+        if len(self.positive) >= self.most_features:
+            check_count(len(self.positive) + 1, OBJECTS, "features", self.src.name, line)
+        if len(self.positive) % MEMORY_CHECK_EVERY == MEMORY_CHECK_EVERY - 1:
+            check_parse_memory(len(self.positive) + 1, f"features of {self.src.name}")
         self.positive.append(positive_token == "P")
         self.record_line.append(line)
         self.attributes.append(attrs if self.keep_attributes else "")
@@ -186,7 +196,8 @@ class _Parser:
         scale = 1.0
         if t[3] == "-1":
             sym = self.symbol(t[4], n)
-            scale = number(t[5], self.src, n, "resize factor")
+            scale = check_range("pad scale", number(t[5], self.src, n, "resize factor"), "resize factor",
+                                self.src.name, n)
             rest = t[6:]
             self.log.add("resized symbol: factor taken as a plain scale", n)
         else:
@@ -199,7 +210,9 @@ class _Parser:
             if orient in LEGACY_ORIENT:
                 rotation, mirror = LEGACY_ORIENT[orient]
             elif orient in (8, 9):
-                rotation, mirror = number(rest[3], self.src, n, "rotation angle"), orient == 9
+                rotation = check_range("rotation", number(rest[3], self.src, n, "rotation angle"), "rotation angle",
+                                       self.src.name, n)
+                mirror = orient == 9
             else:
                 self.fail(f"pad orientation must be 0-9, found {orient}", n)
         for key, value in zip(_PAD_KEYS, (f, x, y, sym, rotation, mirror, scale)):
@@ -218,6 +231,9 @@ class _Parser:
             if self.contour is None:
                 self.fail(f"{head} outside a contour (no OB before it)", n)
             _, _, points, arcs = self.contour
+            self.contour_points += 1
+            if self.contour_points > self.most_points:
+                check_count(self.contour_points, SEGMENTS, "surface contour points", self.src.name, n)
             points.append((self.num(t[1], n), self.num(t[2], n)))
             if head == "OS":
                 arcs.append(None)
@@ -282,26 +298,49 @@ def parse_features(src: JobFile, default_units: str | None, resolve_symbol, keep
     pads["rotation"] = np.asarray(p.pads["rotation"], dtype=np.float64)
     pads["mirror"] = np.asarray(p.pads["mirror"], dtype=bool)
     pads["scale"] = np.asarray(p.pads["scale"], dtype=np.float64)
-    surfaces = [(f, _surface_polygons(contours, scale, p.log)) for f, _, contours in p.surfaces]
+    for table, coords in ((lines_, ("xs", "ys", "xe", "ye")), (arcs, ("xs", "ys", "xe", "ye", "xc", "yc")),
+                          (pads, ("x", "y"))):
+        _check_coordinates(p, np.column_stack([table[k] for k in coords]), table["feature"])
+    surfaces = [(f, _surface_polygons(contours, scale, p)) for f, _, contours in p.surfaces]
     return FeatureTable(src=src, units=units, count=len(p.positive), positive=np.asarray(p.positive, dtype=bool),
                         record_line=np.asarray(p.record_line, dtype=np.int64), attributes=p.attributes,
                         attribute_names=p.attribute_names, symbols=symbols,
                         lines=lines_, arcs=arcs, pads=pads, surfaces=surfaces, log=p.log)
 
 
-def _surface_polygons(contours, scale: float, log: FileWarnings) -> list[shapely.Geometry]:
-    """Each island with the holes that follow it cut out; contours as given (no reliance on winding)."""
-    islands: list[shapely.Geometry] = []
+def _check_coordinates(p: _Parser, values: np.ndarray, feature: np.ndarray) -> None:
+    """Refuse coordinates (mm, one row per feature) outside the physical range, naming the first one's line."""
+    if not len(values):
+        return
+    largest = np.max(np.abs(values), axis=1)
+    bad = np.flatnonzero(~(largest <= MAX_COORDINATE_MM))
+    if len(bad):
+        row = values[bad[0]]
+        worst = row[np.argmax(np.where(np.isfinite(row), np.abs(row), np.inf))]
+        p.fail(range_problem("coordinate", worst, "coordinate"), p.record_line[int(feature[bad[0]])])
+
+
+def _surface_polygons(contours, scale: float, p: _Parser) -> list[shapely.Geometry]:
+    """Each island with the holes that follow it cut out (all at once, so many holes cost one difference);
+    contours as given (no reliance on winding)."""
+    islands: list[tuple[shapely.Geometry, list[shapely.Geometry]]] = []
     for kind, line, points, arcs in contours:
         pts = np.asarray(points, dtype=np.float64) * scale
         centres = [None if a is None else (a[0], (a[1][0] * scale, a[1][1] * scale)) for a in arcs]
-        poly = arc_poly_polygon(pts, centres)
+        extent = np.abs(np.concatenate([pts.ravel(), [v for c in centres if c is not None for v in c[1]]]))
+        if not (extent <= MAX_COORDINATE_MM).all():
+            p.fail(range_problem("coordinate", extent[~(extent <= MAX_COORDINATE_MM)][0], "contour coordinate"), line)
+        try:
+            poly = arc_poly_polygon(pts, centres)
+        except InputError as exc:
+            p.fail(exc.message, line)
         if poly.is_empty:
-            log.add("surface contour with no area ignored", line)
+            p.log.add("surface contour with no area ignored", line)
         elif kind == "I":
-            islands.append(poly)
+            islands.append((poly, []))
         elif islands:
-            islands[-1] = shapely.difference(islands[-1], poly)
+            islands[-1][1].append(poly)
         else:
-            log.add("hole contour before any island ignored", line)
-    return [g for island in islands for g in shapely.get_parts(island) if not g.is_empty]
+            p.log.add("hole contour before any island ignored", line)
+    cut = [shapely.difference(island, shapely.union_all(holes)) if holes else island for island, holes in islands]
+    return [g for island in cut for g in shapely.get_parts(island) if not g.is_empty]

@@ -91,7 +91,10 @@ class SymbolLibrary:
     _loading: list[str] = field(default_factory=list)
 
     def __call__(self, name: str, size_mm: float, src: JobFile, line: int) -> Symbol:
-        standard = standard_symbol(name, size_mm)
+        try:
+            standard = standard_symbol(name, size_mm)
+        except ValueError as exc:
+            raise InputError(str(exc), path=src.name, line=line) from None
         if standard is not None and not standard.approximate:
             return standard
         user = self._user_symbol(name, src, line)

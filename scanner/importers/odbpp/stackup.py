@@ -17,7 +17,7 @@ from __future__ import annotations
 from typing import Callable
 
 from scanner.board.model import Stackup, StackupLayer
-from scanner.errors import InputError
+from scanner.input_limits import check_range
 from scanner.importers.odbpp.matrix import Matrix, MatrixLayer
 from scanner.importers.odbpp.text import JobFile, read_structured
 from scanner.units import MM_PER_OZ_COPPER
@@ -27,19 +27,12 @@ STACKUP_SOURCE = "odbpp-job"
 _KINDS = {"DIELECTRIC": "dielectric", "SOLDER_MASK": "soldermask"}
 
 
-def _value(values: dict, lines: dict, key: str, src: JobFile, low: float) -> float | None:
+def _value(values: dict, lines: dict, key: str, src: JobFile, kind: str) -> float | None:
+    """The attribute ``key`` within the physical range of ``kind``; None when absent."""
     text = values.get(key)
     if text is None or text == "":
         return None
-    try:
-        value = float(text)
-    except ValueError:
-        raise InputError(f"layer attribute {key.lower()} is {text!r}, not a number", path=src.name,
-                         line=lines.get(key)) from None
-    if value < low:
-        raise InputError(f"layer attribute {key.lower()} is {value}, below {low}", path=src.name,
-                         line=lines.get(key))
-    return value
+    return check_range(kind, text, f"layer attribute {key.lower()}", src.name, lines.get(key))
 
 
 _KEYS = ("THICKNESS_MM", "EPSILON_R", ".COPPER_WEIGHT")
@@ -52,15 +45,15 @@ def _row(layer: MatrixLayer, src: JobFile, copper_index: int | None) -> tuple[St
         data = read_structured(src, "layer attribute list")
         values, lines = data.values, data.value_lines
     given = any(values.get(key) for key in _KEYS)
-    thickness = _value(values, lines, "THICKNESS_MM", src, 0.0)
-    eps = _value(values, lines, "EPSILON_R", src, 1.0)
+    kind = "copper" if copper_index is not None else _KINDS[layer.type]
+    thickness = _value(values, lines, "THICKNESS_MM", src, f"{kind} thickness")
+    eps = _value(values, lines, "EPSILON_R", src, "relative permittivity")
     if copper_index is not None:
-        if thickness is None and (weight := _value(values, lines, ".COPPER_WEIGHT", src, 0.0)) is not None:
+        if thickness is None and (weight := _value(values, lines, ".COPPER_WEIGHT", src, "copper weight")) is not None:
             thickness = weight * MM_PER_OZ_COPPER
         if thickness is None:
             return None, [f"{layer.name}: thickness"], given
         return StackupLayer("copper", layer.name, thickness, None, copper_index), [], given
-    kind = _KINDS[layer.type]
     missing = [f"{layer.name}: {what}" for what, v in (("thickness", thickness), ("epsilon_r", eps)) if v is None]
     if missing:
         return None, missing if kind == "dielectric" else [], given

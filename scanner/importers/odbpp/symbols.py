@@ -15,6 +15,7 @@ import shapely
 from shapely import affinity
 
 from scanner.importers.apertures import QUAD_SEGS
+from scanner.input_limits import range_problem
 
 _NUM = r"(\d+(?:\.\d*)?|\.\d+)"
 _PATTERNS = {
@@ -35,6 +36,8 @@ _PATTERNS = {
 }
 #: sizes in names we do not model: the leading ``<w>[x<h>]`` gives a stand-in box
 _ANY_SIZED = re.compile(rf"^[a-z_]+?{_NUM}(?:x{_NUM})?(?:x.*)?$")
+#: spokes of a thermal symbol (real ones have 2 to 8)
+MAX_THERMAL_SPOKES = 64
 
 
 @dataclass(frozen=True)
@@ -95,15 +98,22 @@ def standard_symbol(name: str, size_mm: float) -> Symbol | None:
             return _build(kind, m.groups(), size_mm, name)
     m = _ANY_SIZED.match(low)
     if m:
-        w = float(m.group(1)) * size_mm
-        h = float(m.group(2)) * size_mm if m.group(2) else w
+        w = _size(m.group(1), size_mm, name)
+        h = _size(m.group(2), size_mm, name) if m.group(2) else w
         return Symbol(name, _box(w, h), approximate=True)
     return None
 
 
+def _size(text: str, k: float, name: str) -> float:
+    """A size in a symbol's name, in mm; ValueError when outside the physical range of an aperture."""
+    if (problem := range_problem("aperture size", float(text) * k, f"symbol {name!r} size")) is not None:
+        raise ValueError(problem)
+    return float(text) * k
+
+
 def _build(kind: str, groups: tuple, k: float, name: str) -> Symbol:
     def size(i: int) -> float:
-        return float(groups[i]) * k
+        return _size(groups[i], k, name)
 
     if kind == "round":
         return Symbol(name, shapely.Point(0, 0).buffer(size(0) / 2, quad_segs=QUAD_SEGS), round_mm=size(0))
@@ -146,6 +156,8 @@ def _build(kind: str, groups: tuple, k: float, name: str) -> Symbol:
         b, h = size(0), size(1)
         return Symbol(name, _poly([(-b / 2, -h / 2), (b / 2, -h / 2), (0, h / 2)]))
     if kind == "thermal":
+        if int(groups[3]) > MAX_THERMAL_SPOKES:
+            raise ValueError(f"thermal symbol {name!r} has {int(groups[3])} spokes, more than {MAX_THERMAL_SPOKES}")
         return Symbol(name, _thermal(size(0), size(1), float(groups[2]), int(groups[3]), size(4)))
     return Symbol(name, shapely.Polygon())
 
