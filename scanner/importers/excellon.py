@@ -307,7 +307,7 @@ def _drill_file(path: Path, text: str, drills: _DrillParser, plated: bool | None
                 x0, y0, x1, y1 = (v * to_mm for v in (line.x1, line.y1, line.x2, line.y2))
                 n = int(np.ceil(np.hypot(x1 - x0, y1 - y0) / max(dia / 2, 1e-3))) + 1
                 if len(xs) + n > most:
-                    check_count(len(xs) + n, OBJECTS, "holes (routed slots counted as rows of holes)", name)
+                    check_count(len(xs) + n, OBJECTS, "holes (routed slots counted as rows of holes)", log.name)
                 t = np.linspace(0.0, 1.0, n)
                 xs.extend(x0 + (x1 - x0) * t)
                 ys.extend(y0 + (y1 - y0) * t)

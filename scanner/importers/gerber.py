@@ -28,8 +28,9 @@ from scanner.importers.sources import SourceFile, folder_name, named_kind
 from scanner.input_limits import SEGMENTS, check_count
 from scanner.board.netmap import assign_nets
 
-#: words in the refusals a drill file keeps (not left out): a size limit, or a file that changes its scale
-REFUSED_DRILL_PROBLEMS = ("NEARFAR_MAX_", "may not use two scales")
+#: words in the problems that refuse a board even in a file it can do without (a drill or job file): a size or
+#: memory limit, a number outside its physical range, a file that changes its scale
+REFUSED_PROBLEMS = ("NEARFAR_MAX_", " range (from ", "may not use two scales")
 #: files larger than this are not read as drill side files (bytes)
 SIDE_FILE_MAX_BYTES = 65536
 
@@ -181,12 +182,19 @@ def _job_file(files: list[SourceFile]) -> tuple[JobFile | None, list[str]]:
         with reading(jobs[0].name):
             job = read_job_file(jobs[0].path, jobs[0].name)
     except InputError as exc:
+        if _refused(exc):
+            raise
         return None, notes + [f"{exc.one_line()}; job file not used (stackup from the rules or the default)"]
     present = {f.path.name for f in files}
     missing = sorted(n for n, fn in job.file_functions.items() if fn[0] == "Copper" and n not in present)
     if missing:
         raise InputError(f"lists copper file(s) missing from the board: {', '.join(missing)}", path=job.path)
     return job, notes + job.warnings
+
+
+def _refused(exc: InputError) -> bool:
+    """Is this a problem that refuses the board even in a file it can do without?"""
+    return any(words in exc.message for words in REFUSED_PROBLEMS)
 
 
 #: by the format a file's name promises: how messages call the format, and what the board needs the file for
@@ -273,7 +281,7 @@ def _holes(files, by_rel, cfg: BoardFile | None, job: JobFile | None, layers: li
         try:
             drill = read_drills(src.path, src.name, plated, source, side.get(src.rel.rpartition("/")[0]), landing)
         except InputError as exc:
-            if any(words in exc.message for words in REFUSED_DRILL_PROBLEMS):
+            if _refused(exc):
                 raise
             effect = _without_drills(netlist is not None)
             warnings.append(f"{exc.one_line()}; drill file not used: {effect}")

@@ -23,6 +23,8 @@ from scanner.spatial_query import check_index_memory, query_all
 
 #: draws shorter than this (mm) are flashes in disguise and become pads
 ZERO_LENGTH_MM = 1e-6
+#: zero-width draws beyond this share of a layer's draws refuse the file (its widths are lost, not hairlines)
+ZERO_WIDTH_MAX_SHARE = 0.5
 
 #: exceptions gerbonara raises on malformed input
 PARSER_ERRORS = (SyntaxError, ValueError, KeyError, IndexError, TypeError, AttributeError,
@@ -403,9 +405,14 @@ def _draws_to_segments(draws, order, scale, log, outlines) -> dict:
     thin = np.flatnonzero((width <= 0) & conductor & np.asarray(dark, dtype=bool) & ~zero)
     if len(thin):
         ap = apert[thin[0]]
-        raise InputError(f"{len(thin):,} conductor draw(s) with zero-size aperture D{ap.original_number}, the "
-                         f"first from ({x0[thin[0]]:.4f}, {y0[thin[0]]:.4f}) mm: a draw needs a width (a zero-size "
-                         "aperture draws nothing)")
+        said = (f"{len(thin):,} conductor draw(s) with zero-size aperture D{ap.original_number}, the first from "
+                f"({x0[thin[0]]:.4f}, {y0[thin[0]]:.4f}) mm")
+        drawn = int((conductor & np.asarray(dark, dtype=bool) & ~zero).sum())
+        if len(thin) > ZERO_WIDTH_MAX_SHARE * drawn:
+            raise InputError(f"{said}: a draw needs a width (a zero-size aperture draws nothing)")
+        # a few hairlines (outline or marks drawn on the copper film by some writers) draw no copper
+        log.add(f"{said}: zero-width draws make no copper; left out")
+        conductor[thin] = False
     nets_arr = np.empty(n, dtype=object)
     nets_arr[:] = nets
     dark = np.asarray(dark, dtype=bool)

@@ -566,17 +566,23 @@ def board_with_job(tmp, edit: Callable[[dict], None]) -> Path:
 
 
 def job_case(tmp, edit: Callable[[dict], None], says: str) -> Recoverable:
-    """A job file with a bad value: the board loads without it (stackup from the rules), with a warning."""
+    """A job file that cannot be used: the board loads without it (stackup from the rules), with a warning."""
     return Recoverable(board_with_job(tmp, edit), JOB_FILE, says)
+
+
+def job_out_of_range(tmp, edit: Callable[[dict], None], says: str) -> Case:
+    """A number outside its physical range refuses the board, even in a file it could do without."""
+    return Case(board_with_job(tmp, edit), JOB_FILE, says)
 
 
 def _core(data: dict) -> dict:
     return data["MaterialStackup"][2]
 
 
-@recoverable
+@case
 def job_negative_thickness(tmp):
-    return job_case(tmp, lambda d: _core(d).update(Thickness=-0.2), "Thickness -0.2")
+    return job_out_of_range(tmp, lambda d: _core(d).update(Thickness=-0.2),
+                            "Thickness -0.2 mm is outside the dielectric thickness range")
 
 
 @recoverable
@@ -584,19 +590,22 @@ def job_missing_thickness(tmp):
     return job_case(tmp, lambda d: _core(d).pop("Thickness"), "no Thickness")
 
 
-@recoverable
+@case
 def job_zero_thickness(tmp):
-    return job_case(tmp, lambda d: _core(d).update(Thickness=0), "Thickness 0")
+    return job_out_of_range(tmp, lambda d: _core(d).update(Thickness=0),
+                            "Thickness 0 mm is outside the dielectric thickness range")
 
 
-@recoverable
+@case
 def job_permittivity_below_one(tmp):
-    return job_case(tmp, lambda d: _core(d).update(DielectricConstant=0.7), "DielectricConstant 0.7")
+    return job_out_of_range(tmp, lambda d: _core(d).update(DielectricConstant=0.7),
+                            "DielectricConstant 0.7 is outside the relative permittivity range")
 
 
-@recoverable
+@case
 def job_permittivity_not_a_number(tmp):
-    return job_case(tmp, lambda d: _core(d).update(DielectricConstant="high"), "expected a relative permittivity")
+    return job_out_of_range(tmp, lambda d: _core(d).update(DielectricConstant="high"),
+                            "not a finite number, is outside the relative permittivity range")
 
 
 @recoverable
