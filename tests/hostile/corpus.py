@@ -489,7 +489,7 @@ def drill_case(tmp, lines: list[str], says: str, line: int | None) -> Recoverabl
 
 
 def drill_refused(tmp, lines: list[str], says: str, line: int | None) -> Case:
-    """A drill file that means two things, or another board's: refused with one line."""
+    """A drill file that means two things, holds a number out of range, or is another board's: refused with one line."""
     return Case(board_with(tmp, DRILL_FILE, lines), DRILL_FILE, says, line)
 
 
@@ -519,10 +519,11 @@ def drill_absurd_coordinate(tmp):
     return drill_case(tmp, lines, "beyond the limit", i + 1)
 
 
-@recoverable
+@case
 def drill_absurd_tool(tmp):
     lines = [line.replace("T1C0.300", "T1C99999999.0") for line in drill_lines()]
-    return drill_case(tmp, lines, "tool diameter", index_of(lines, "X") + 1)
+    return drill_refused(tmp, lines, "tool diameter 1e+08 mm is outside the drill diameter range",
+                         index_of(lines, "X") + 1)
 
 
 @case

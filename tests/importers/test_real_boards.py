@@ -59,8 +59,7 @@ def test_lidar_copper_named_in_words_in_subfolders(capsys, tmp_path):
     # BoardOutlline.gdo draws a 4.8425 x 2.7559 inch rectangle = 123.0 x 70.0 mm
     assert board.outline.area == pytest.approx(123.0 * 70.0, rel=1e-4)
     assert (int(board.holes.plated.sum()), int((~board.holes.plated).sum())) == (364, 9)  # as read
-    _connectivity(board, 203)
-    assert any("zero-width draws make no copper" in w for w in board.warnings)  # hairlines on the copper films
+    _connectivity(board, 203)  # as read; the four zero-width hairlines on the copper films make no copper
     assert _inspect_exit(folder, capsys) == 0
     # a board file may name layers by their path relative to the board folder
     board_file = tmp_path / "board.toml"
