@@ -22,11 +22,11 @@ __all__ = ["load_board", "scan", "InputError"]
 from scanner.errors import InputError
 
 
-def load_board(path, board_file=None):
-    """Read a board folder or archive into a :class:`scanner.board.model.Board`."""
+def load_board(path, board_file=None, step=None):
+    """Read a board folder or archive into a :class:`scanner.board.model.Board` (``step``: the ODB++ step)."""
     from scanner.importers import load_board as _load
 
-    return _load(path, board_file=board_file)
+    return _load(path, board_file=board_file, step=step)
 
 
 def scan(board, rules=None, progress=None):

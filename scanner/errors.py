@@ -1,6 +1,7 @@
-"""The one exception type for bad input, caught once in the CLI."""
+"""The one exception type for bad input, caught once in the CLI, and which input file is being read."""
 from __future__ import annotations
 
+from contextlib import contextmanager
 from pathlib import Path
 
 #: surrogates Python uses for file-name bytes that are not valid UTF-8 (PEP 383)
@@ -36,6 +37,34 @@ class InputError(Exception):
             where = self.path if self.line is None else f"{self.path}:{self.line}"
             where += ": "
         return f"{where}{self.message}"
+
+
+
+#: the input files being read now, innermost last, for the one-line report of an internal error
+_reading: list[str] = []
+
+#: attribute an escaping exception carries naming the file that was being read when it was raised
+READING_ATTRIBUTE = "nearfar_reading"
+
+
+@contextmanager
+def reading(path: str | Path):
+    """Mark ``path`` as the file being read during the block; an exception leaving it is stamped with the
+    innermost file (see :func:`being_read`)."""
+    _reading.append(printable(str(path)))
+    try:
+        yield
+    except BaseException as exc:
+        if getattr(exc, READING_ATTRIBUTE, None) is None:
+            setattr(exc, READING_ATTRIBUTE, _reading[-1])
+        raise
+    finally:
+        _reading.pop()
+
+
+def being_read(exc: BaseException | None = None) -> str | None:
+    """The file ``exc`` was raised while reading, else the innermost file being read now."""
+    return getattr(exc, READING_ATTRIBUTE, None) or (_reading[-1] if _reading else None)
 
 
 class InternalError(Exception):

@@ -19,11 +19,12 @@ def check_output(board_path: Path, out_dir: Path) -> None:
     check_output_folder(out_dir)
 
 
-def scan_board(board_path: Path, rules, board_file: Path | None = None, progress=None):
-    """Read the board and scan it with ``rules``: ``(board, result)``. Bad input raises :class:`InputError`."""
+def scan_board(board_path: Path, rules, board_file: Path | None = None, step: str | None = None, progress=None):
+    """Read the board (``step``: the ODB++ step to read) and scan it with ``rules``: ``(board, result)``.
+    Bad input raises :class:`InputError`."""
     progress = progress or (lambda msg: None)
     progress(f"reading {board_path}")
-    board = load_board(board_path, board_file=board_file)
+    board = load_board(board_path, board_file=board_file, step=step)
     return board, scan(board, rules, progress=progress)
 
 

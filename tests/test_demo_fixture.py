@@ -23,7 +23,7 @@ from gerbonara.ipc356 import Netlist
 from shapely.geometry import LineString, Point, Polygon, box
 
 from scanner import load_board
-from scanner.importers.layer_order import guess_from_name
+from scanner.importers.layer_names import guess_from_name
 from scanner.importers.sources import list_sources
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -212,7 +212,7 @@ def test_layer_order_comes_from_attributes_and_the_board_file_not_the_names():
     and job file, x1/ by nearfar-board.toml."""
     for folder in ("x1", "x2"):
         sources = list_sources(FIXTURE / folder)
-        assert not [s.path.name for s in sources if guess_from_name(s.path.name)]
+        assert not [s.path.name for s in sources if guess_from_name(s.path.name).is_copper]
         board = load_board(FIXTURE / folder)
         assert [layer.name for layer in board.layers] == [f"L{n:02d}" for n in range(1, 7)]
         assert [layer.kind for layer in board.layers] == ["signal", "plane", "signal", "plane", "plane", "signal"]

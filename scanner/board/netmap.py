@@ -191,6 +191,8 @@ def _locate_points(board: Board, features: Features, trees: list, hole_labels: n
 
 def _island_anchor(features: Features, labels: np.ndarray, n_islands: int) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Per island: lowest layer, and the lexicographically smallest (x, y) lower-left corner on that layer."""
+    if not len(labels):  # no copper at all (only holes, or empty copper files)
+        return np.full(n_islands, -1), np.full(n_islands, np.nan), np.full(n_islands, np.nan)
     bounds = shapely.bounds(features.geometry)
     order = np.lexsort((bounds[:, 1], bounds[:, 0], features.layer, labels))
     first = np.full(n_islands, -1)

@@ -37,8 +37,13 @@ def inspect_data(board: Board, rules: Rules | None = None) -> dict:
             "kind_source": layer.kind_source, "file": layer.path, "segments": len(layer.segments),
             "shapes": len(layer.shapes), "trace_length_mm": round(layer.trace_length_mm, 3),
             "fill_ratio": None if layer.fill_ratio is None else round(layer.fill_ratio, 4),
+            "kind_evidence": layer.kind_evidence,
             "reference": references[layer.index][0], "reference_evidence": references[layer.index][1],
         } for layer in board.layers],
+        "outline_mm2": None if board.outline is None else round(float(board.outline.area), 3),
+        "left_out": {"objects": board.left_out.objects, "trace_length_mm": round(board.left_out.trace_length_mm, 3),
+                     "layers": list(board.left_out.layers)},
+        "incomplete": list(board.incomplete),
         "nets": len(board.nets),
         "holes": {"plated": int(board.holes.plated.sum()), "non_plated": int((~board.holes.plated).sum())},
         "stackup": [] if board.stackup is None else [{
@@ -99,6 +104,16 @@ def render_inspect(data: dict, all_nets: bool = False) -> str:
              Path(l["file"] or "").name) for l in data["layers"]]
     out += _table(("layer", "side", "use", "decided by", "traces", "length mm", "shapes", "poured", "file"),
                   rows, {4, 5, 6, 7})
+    out += ["", "why each layer is a plane or a signal layer:"]
+    out += [f"  {l['name']}: {l['kind_evidence']}" for l in data["layers"] if l["kind_evidence"]]
+    outline = data["outline_mm2"]
+    out += ["", f"outline: {'none read; the board extent comes from drill hits and copper' if outline is None else f'{outline:.0f} mm2'}"]
+    if data["left_out"]["objects"]:
+        left = data["left_out"]
+        out.append(f"left out (outside the board): {left['objects']} objects, {left['trace_length_mm']:.0f} mm of "
+                   f"draws on {', '.join(left['layers'])}")
+    if data["incomplete"]:
+        out += ["incomplete import:"] + [f"  {reason}" for reason in data["incomplete"]]
     out += ["", "references (from the board's stackup, or the default one; a rules file can change them):"]
     out += [f"  {l['name']}: {l['reference']}" + (f" ({l['reference_evidence']})" if l["reference_evidence"] else "")
             for l in data["layers"]]
@@ -160,14 +175,15 @@ def _net_lines(nets: list[dict], all_nets: bool) -> list[str]:
 @click.option("--rules", "rules_path", type=click.Path(path_type=Path), default=None,
               help="Rules file (TOML) whose classes, power nets and pairs to apply; defaults without one.")
 @click.option("--all-nets", is_flag=True, help=f"List every net on the terminal (the first {SHOWN_NETS} otherwise).")
+@click.option("--step", default=None, metavar="NAME", help="The step of an ODB++ job to read, when it has several.")
 @stackup_option
-def command(board, as_json, board_file, rules_path, all_nets, stackup_path):
-    """Show what nearfar reads from BOARD (a folder, .zip, or ODB++ job .tgz): copper layers in stack order, planes,
-    nets with their class, role and differential partner, stackup, how well the copper matched the netlist, and
+def command(board, as_json, board_file, rules_path, all_nets, stackup_path, step):
+    """Show what nearfar reads from BOARD (a folder, .zip, or ODB++ job .tgz): copper layers in stack order, planes
+    and the evidence for each, the outline, copper left out, nets with their class, role and differential partner, stackup, how well the copper matched the netlist, and
     warnings (parser warnings, rules patterns that match no net). With --stackup, the stackup shown is the file's
     (checked against the board's copper layers)."""
     rules = load_rules(rules_path)
-    the_board = load_board(board, board_file=board_file)
+    the_board = load_board(board, board_file=board_file, step=step)
     if stackup_path is not None:
         stackup, _ = effective_stackup(the_board, stackup_override(stackup_path))
         the_board = dataclasses.replace(the_board, stackup=stackup)

@@ -38,8 +38,9 @@ from scanner.signoff.rules_input import rules_with_waivers
               help="Report folder of an earlier scan: list what got fixed, new, worse or better since then.")
 @click.option("--junit", "junit_path", type=click.Path(path_type=Path, dir_okay=False), default=None,
               help="Also write the result as JUnit XML (one test case per victim) for CI systems.")
+@click.option("--step", default=None, metavar="NAME", help="The step of an ODB++ job to read, when it has several.")
 def command(board, rules_path, board_file, stackup_path, out_dir, top, as_json, no_images, waivers_path, baseline_dir,
-            junit_path):
+            junit_path, step):
     """Find parallel runs between nets on BOARD (a folder or .zip of Gerber, drill and netlist files, or an
     ODB++ job folder or .tgz), predict NEXT and FEXT on every victim, check the net-class budgets and rank
     the hotspots.
@@ -71,7 +72,7 @@ def command(board, rules_path, board_file, stackup_path, out_dir, top, as_json, 
     rules = rules_with_waivers(rules_path, waivers_path)
     rules = dataclasses.replace(rules, stackup=stackup_override(stackup_path, rules.stackup))
     baseline = read_report(baseline_dir) if baseline_dir is not None else None
-    the_board, result = scan_board(board, rules, board_file=board_file, progress=progress)
+    the_board, result = scan_board(board, rules, board_file=board_file, step=step, progress=progress)
     if baseline is not None:
         result.comparison = compare_reports(baseline, result.to_dict(), str(baseline_dir), "this scan")
     report = write_outputs(result, the_board, out_dir, images=not no_images, progress=progress)

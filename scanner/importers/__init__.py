@@ -19,9 +19,9 @@ from scanner.workspace import unpack_folder
 __all__ = ["load_board"]
 
 
-def load_board(path, board_file=None) -> Board:
+def load_board(path, board_file=None, step: str | None = None) -> Board:
     """Read a board folder or archive (``.zip``; ``.tgz``, ``.tar.gz``, ``.tar`` for ODB++ jobs);
-    ``board_file`` overrides ``nearfar-board.toml``."""
+    ``board_file`` overrides ``nearfar-board.toml``; ``step`` names the ODB++ step to read."""
     path = Path(path)
     board_file = None if board_file is None else Path(board_file)
     if board_file is not None and not board_file.is_file():
@@ -34,13 +34,13 @@ def load_board(path, board_file=None) -> Board:
         with unpack_folder() as root:
             try:
                 extract_job_archive(path, root)
-                return _load_folder(root, board_file, where=printable(str(path)), prefix=f"{path.name}!")
+                return _load_folder(root, board_file, step, where=printable(str(path)), prefix=f"{path.name}!")
             except (InputError, OSError) as exc:
                 named = _named_in_archive(exc, root, f"{path.name}!")
                 if named is exc:
                     raise
                 raise named from exc
-    return _load_folder(path, board_file, where=printable(str(path)), prefix=f"{path}/")
+    return _load_folder(path, board_file, step, where=printable(str(path)), prefix=f"{path}/")
 
 
 def _named_in_archive(exc: InputError | OSError, root: Path, prefix: str) -> InputError | OSError:
@@ -57,11 +57,16 @@ def _named_in_archive(exc: InputError | OSError, root: Path, prefix: str) -> Inp
     return OSError(exc.errno, exc.strerror, prefix + name.relative_to(root).as_posix())
 
 
-def _load_folder(root: Path, board_file: Path | None, where: str, prefix: str) -> Board:
+def _load_folder(root: Path, board_file: Path | None, step: str | None, where: str, prefix: str) -> Board:
     files = list_sources(root, prefix)
     if not files:
         raise InputError("no files found", path=where)
     importer = choose(discover(), files, where)
+    if step is not None:
+        if not hasattr(importer, "step"):
+            raise InputError(f"--step names a step of an ODB++ job; these files are read as {importer.name}",
+                             path=where)
+        importer.step = step
     with stage(f"reading {where}", f"{len(files)} files, {sum(f.path.stat().st_size for f in files):,} bytes"):
         board = importer.load(root, files, board_file=board_file)
     board.source = where

@@ -49,6 +49,12 @@ class FileWarnings:
         self.counts[text] += 1
         self.first_line.setdefault(text, line)
 
+    def absorb(self, other: "FileWarnings") -> None:
+        """Add another log's warnings to this one (first lines kept where both have one)."""
+        self.counts.update(other.counts)
+        for text, line in other.first_line.items():
+            self.first_line.setdefault(text, line)
+
     @property
     def total(self) -> int:
         return sum(self.counts.values())

@@ -14,7 +14,7 @@ import shapely
 
 from scanner.board.model import Board, CopperLayer
 from scanner.errors import InputError
-from scanner.importers.planes import copper_box
+from scanner.importers.board_extent import copper_box
 
 #: holes and netlist points further than this outside the board's box are off the board (mm)
 OFF_BOARD_MARGIN_MM = 1.0

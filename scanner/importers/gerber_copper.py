@@ -12,7 +12,7 @@ from gerbonara.apertures import CircleAperture
 from gerbonara.rs274x import GerberFile, GerberParser
 from gerbonara.utils import Inch, MM
 
-from scanner.errors import InputError, printable
+from scanner.errors import InputError, printable, reading
 from scanner.importers.apertures import (QUAD_SEGS, aperture_outline, aperture_problem, arc_poly_polygon,
                                          swept_width_mm)
 from scanner.importers.arcs import flatten_arcs
@@ -23,6 +23,8 @@ from scanner.spatial_query import check_index_memory, query_all
 
 #: draws shorter than this (mm) are flashes in disguise and become pads
 ZERO_LENGTH_MM = 1e-6
+#: zero-width draws beyond this share of a layer's draws refuse the file (its widths are lost, not hairlines)
+ZERO_WIDTH_MAX_SHARE = 0.5
 
 #: exceptions gerbonara raises on malformed input
 PARSER_ERRORS = (SyntaxError, ValueError, KeyError, IndexError, TypeError, AttributeError,
@@ -51,6 +53,8 @@ class CopperArtwork:
     shape_net: np.ndarray
     role: np.ndarray
     log: FileWarnings
+    #: negative image (``%IPNEG*%`` or X2 ``.FilePolarity,Negative``): what is drawn is where copper is not
+    negative: bool = False
 
     @property
     def has_net_attributes(self) -> bool:
@@ -138,6 +142,7 @@ class _CopperParser(GerberParser):
     def __init__(self, target, log: FileWarnings):
         super().__init__(target)
         self._log = log
+        self.negative = False
         target.objects = _ObjectList(self)
 
     def warn(self, msg, kls=SyntaxWarning):
@@ -177,10 +182,8 @@ class _CopperParser(GerberParser):
             raise ValueError(problem)
 
     def _parse_image_polarity(self, match):
-        if match["polarity"] == "NEG":
-            raise ValueError("negative image polarity (%IPNEG*%, deprecated) is not supported: the copper would "
-                             "come out inverted")
-        super()._parse_image_polarity(match)
+        # objects keep the polarity they are drawn with; the importer inverts the whole image
+        self.negative = match["polarity"] == "NEG"
 
     def _parse_eof(self, match):
         if self.current_region is not None:
@@ -202,7 +205,9 @@ class _CopperParser(GerberParser):
 
 
 def parse_gerber(path: Path, display_name: str | None = None) -> tuple[GerberFile, FileWarnings]:
-    """Parse with gerbonara; warnings counted in a log, failures raised as InputError with file and line."""
+    """Parse with gerbonara; warnings counted in a log, failures raised as InputError with file and line.
+
+    A negative image is marked on the result as ``gerber.negative_image``."""
     name = display_name or str(path)
     log = FileWarnings(name)
     data = read_input(path, name, "Gerber file").decode("utf-8", errors="replace")
@@ -221,6 +226,8 @@ def parse_gerber(path: Path, display_name: str | None = None) -> tuple[GerberFil
                          line=data.count("\n") + 1)
     if gerber.unit is None:
         raise InputError("Gerber file declares no unit (no %MO statement)", path=name)
+    polarity = dict(gerber.file_attrs).get(".FilePolarity") or ("",)
+    gerber.negative_image = parser.negative or str(polarity[0]).lower() == "negative"
     return gerber, log
 
 
@@ -253,10 +260,15 @@ def role_for(function: str | None, default: str) -> str:
     return default
 
 
+#: the X2 ``.N`` value for copper that belongs to no net
+NOT_CONNECTED = "N/C"
+
+
 def net_of(obj) -> str | None:
+    """The X2 net name of a graphic object; None for none, empty, and ``N/C`` (not connected)."""
     attrs = obj.attrs if isinstance(obj.attrs, dict) else {}
     value = attrs.get(".N")
-    if not value or not value[0]:
+    if not value or not value[0] or value[0] == NOT_CONNECTED:
         return None
     return printable(value[0])
 
@@ -287,14 +299,16 @@ def _translated(template: shapely.Geometry, x: np.ndarray, y: np.ndarray) -> np.
 
 def read_copper(path: Path, display_name: str | None = None) -> CopperArtwork:
     """Read one copper file into segments and shapes with net names (X2) where present."""
-    with stage(f"reading {display_name or path}", f"{path.stat().st_size:,} bytes"):
+    with reading(display_name or path), stage(f"reading {display_name or path}", f"{path.stat().st_size:,} bytes"):
         gerber, log = parse_gerber(path, display_name)
         try:
-            return artwork_from_gerber(path, gerber, log)
+            art = artwork_from_gerber(path, gerber, log)
         except InputError as exc:
             if exc.path is not None:
                 raise
             raise InputError(exc.message, path=log.name, line=exc.line) from exc
+        art.negative = gerber.negative_image
+        return art
 
 
 def artwork_from_gerber(path: Path, gerber: GerberFile, log: FileWarnings) -> CopperArtwork:
@@ -391,9 +405,14 @@ def _draws_to_segments(draws, order, scale, log, outlines) -> dict:
     thin = np.flatnonzero((width <= 0) & conductor & np.asarray(dark, dtype=bool) & ~zero)
     if len(thin):
         ap = apert[thin[0]]
-        raise InputError(f"{len(thin):,} conductor draw(s) with zero-size aperture D{ap.original_number}, the "
-                         f"first from ({x0[thin[0]]:.4f}, {y0[thin[0]]:.4f}) mm: a draw needs a width (a zero-size "
-                         "aperture draws nothing)")
+        said = (f"{len(thin):,} conductor draw(s) with zero-size aperture D{ap.original_number}, the first from "
+                f"({x0[thin[0]]:.4f}, {y0[thin[0]]:.4f}) mm")
+        drawn = int((conductor & np.asarray(dark, dtype=bool) & ~zero).sum())
+        if len(thin) > ZERO_WIDTH_MAX_SHARE * drawn:
+            raise InputError(f"{said}: a draw needs a width (a zero-size aperture draws nothing)")
+        # a few hairlines (outline or marks drawn on the copper film by some writers) draw no copper
+        log.add(f"{said}: zero-width draws make no copper; left out")
+        conductor[thin] = False
     nets_arr = np.empty(n, dtype=object)
     nets_arr[:] = nets
     dark = np.asarray(dark, dtype=bool)

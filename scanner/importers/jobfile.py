@@ -1,7 +1,9 @@
-"""Gerber job files (``.gbrjob``, JSON): stackup and per-file functions."""
+"""Gerber job files (``.gbrjob``): stackup and per-file functions from the JSON form; board facts from the
+older form written in Gerber syntax (``%TF.FileFunction,JobInfo*%`` with ``%TJ…*%`` attributes)."""
 from __future__ import annotations
 
 import json
+import re
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -18,6 +20,28 @@ class JobFile:
     file_functions: dict[str, tuple[str, ...]] = field(default_factory=dict)
     #: what was left out of the stackup, and why
     warnings: list[str] = field(default_factory=list)
+    #: copper layer count the job file states, if any
+    copper_layers: int | None = None
+
+
+_JOB_ATTRIBUTE = re.compile(r"%TJ\.(\w+),([^*%]*)\*%")
+
+
+def _gerber_syntax_job(text: str, name: str) -> JobFile:
+    """The Gerber-syntax job file: its board thickness and layer count, stated in a warning (no stackup in it)."""
+    values = {key: value.strip() for key, value in _JOB_ATTRIBUTE.findall(text)}
+    job = JobFile(name, None)
+    facts = []
+    if (count := values.get("B_LayerNum", "")).isdigit():
+        job.copper_layers = int(count)
+        facts.append(f"{count} copper layers")
+    try:
+        facts.append(f"board {float(values['B_Thickness']):g} mm thick")
+    except (KeyError, ValueError):
+        pass
+    job.warnings.append(f"{name}: job file in Gerber syntax (JobInfo); it gives no stackup"
+                        + (f" ({', '.join(facts)})" if facts else ""))
+    return job
 
 
 def _number(item: dict, key: str, kind: str, where: str, path: str) -> float | None:
@@ -52,9 +76,12 @@ def _list(data: dict, key: str, path: str) -> list:
 def read_job_file(path: Path, display_name: str | None = None) -> JobFile:
     """Read ``MaterialStackup`` (mm, top to bottom) and ``FilesAttributes``; every value used is checked."""
     name = display_name or str(path)
+    raw = read_input(path, name, "job file").decode("utf-8-sig", errors="replace")
+    if "FileFunction,JobInfo" in raw[:4096] and not raw.lstrip().startswith("{"):
+        return _gerber_syntax_job(raw, name)
     try:
-        data = json.loads(read_input(path, name, "job file").decode("utf-8-sig"))
-    except (UnicodeDecodeError, json.JSONDecodeError, RecursionError) as exc:
+        data = json.loads(raw)
+    except (json.JSONDecodeError, RecursionError) as exc:
         raise InputError(f"job file is not valid JSON: {getattr(exc, 'msg', exc)}", path=name,
                          line=getattr(exc, "lineno", None)) from exc
     if not isinstance(data, dict):

@@ -1,82 +1,87 @@
-"""Which copper layers are reference planes, and on what evidence."""
+"""Which copper layers are reference planes, and on what evidence.
+
+Stated kinds win (the board file's ``planes``, X2 ``.FileFunction``, the job file, the ODB++
+matrix). Otherwise each layer's pour fill is measured inside the board — the share of the
+board's area its pours cover, pours drawn as regions, as strokes or as a negative image
+alike — and compared with the board's other layers: a layer is a plane when its fill is high
+for this board and it carries few traces. Outer layers carry the components and their
+pours usually surround signal traces, so there "few" means almost none.
+"""
 from __future__ import annotations
 
 import numpy as np
-import shapely
 
+from scanner.board.coverage import Grid, draw
 from scanner.board.model import CopperLayer
-from scanner.board.netmap import exact_touch
-from scanner.memory import check_memory
-from scanner.spatial_query import query_all
+from scanner.importers.board_extent import OUTLINE_FROM, BoardExtent, board_extent
 
-#: a layer whose pours cover more than this share of the board may be a plane ...
-PLANE_FILL_RATIO = 0.4
-#: ... when it also carries less than this share of the busiest layer's trace length
+#: a plane's fill is at least this share of the board's area ...
+PLANE_MIN_FILL = 0.15
+#: ... and at least this fraction of the best-filled layer's
+PLANE_FILL_OF_BEST = 0.5
+#: an inner plane carries less than this share of the busiest layer's trace length ...
 PLANE_TRACE_SHARE = 0.25
-#: bytes per outline point while pours are merged (peak resident growth measured at about 40 for 20,000
-#: overlapping circles; rounded up for outlines that cross more)
-BYTES_PER_UNION_POINT = 200
+#: ... an outer one less than this
+OUTER_PLANE_TRACE_SHARE = 0.05
 
 
-def copper_box(layers: list[CopperLayer], outline=None) -> tuple[float, float, float, float] | None:
-    """(x0, y0, x1, y1) in mm of the outline when known, else of all copper; None when there is neither."""
-    if outline is not None and not outline.is_empty:
-        return tuple(float(v) for v in outline.bounds)
-    boxes = []
+def pour_fill(layers: list[CopperLayer], extent: BoardExtent | None) -> list[float]:
+    """Per layer, the share of the board's area covered by its pours (region shapes), measured on a grid."""
+    if extent is None or extent.area_mm2 <= 0:
+        return [0.0] * len(layers)
+    grid = Grid.over(tuple(float(v) for v in extent.shape.bounds))
+    inside = draw(grid, polygons=[extent.shape])
+    weight = float(inside.sum())
+    if weight <= 0:
+        return [0.0] * len(layers)
+    fills = []
     for layer in layers:
-        s = layer.segments
-        if len(s):
-            boxes.append((min(s.x0.min(), s.x1.min()), min(s.y0.min(), s.y1.min()),
-                          max(s.x0.max(), s.x1.max()), max(s.y0.max(), s.y1.max())))
-        if len(layer.shapes):
-            b = shapely.total_bounds(layer.shapes.geometry)
-            if np.isfinite(b).all():
-                boxes.append(tuple(b))
-    if not boxes:
-        return None
-    b = np.array(boxes)
-    return float(b[:, 0].min()), float(b[:, 1].min()), float(b[:, 2].max()), float(b[:, 3].max())
-
-
-def board_area_mm2(layers: list[CopperLayer], outline=None) -> float:
-    """Area of the outline when known, else of the box around all copper."""
-    if outline is not None and not outline.is_empty:
-        return float(outline.area)
-    box = copper_box(layers)
-    return 0.0 if box is None else (box[2] - box[0]) * (box[3] - box[1])
-
-
-def fill_ratio(layer: CopperLayer, area_mm2: float) -> float:
-    """Share of the board covered by the layer's pours (regions)."""
-    regions = layer.shapes.geometry[layer.shapes.role == "region"] if len(layer.shapes) else []
-    if area_mm2 <= 0 or not len(regions):
-        return 0.0
-    # pours rarely overlap; a union (costly on board-sized outlines) is needed only when they do
-    q, _ = query_all(shapely.STRtree(regions), regions, f"{len(regions):,} pours of {layer.name}",
-                     keep=lambda q, t: (q < t) & exact_touch(regions[q], regions[t]))
-    if len(q):
-        check_memory(shapely.get_num_coordinates(regions).sum() * BYTES_PER_UNION_POINT,
-                     f"merging {len(regions):,} overlapping pours of {layer.name}")
-    covered = shapely.union_all(regions).area if len(q) else shapely.area(regions).sum()
-    return float(covered / area_mm2)
+        shapes = layer.shapes
+        pours = shapes.geometry[shapes.role == "region"] if len(shapes) else []
+        fills.append(float((draw(grid, polygons=pours) * inside).sum() / weight) if len(pours) else 0.0)
+    return fills
 
 
 def classify_planes(layers: list[CopperLayer], hints: list[tuple[str | None, str | None]],
-                    board_planes: set[int] | None, outline=None) -> None:
-    """Set ``kind``, ``kind_source`` and ``fill_ratio`` on each layer.
+                    board_planes: set[int] | None, extent=None, notes: list[str] | None = None) -> None:
+    """Set ``kind``, ``kind_source``, ``fill_ratio`` and ``kind_evidence`` on each layer.
 
     ``board_planes`` (layer indices from the board file) is taken as the complete list when given;
-    otherwise X2 or job-file hints decide, and the fill ratio decides the rest.
+    otherwise X2, job-file or matrix hints decide, and the pour fill decides the rest. ``extent`` is
+    a :class:`BoardExtent`, an outline geometry (the ODB++ profile) or None (then the copper's own
+    extent). ``notes`` adds per-layer words to the evidence (strokes read as pour, a negative image).
     """
-    area = board_area_mm2(layers, outline)
-    busiest = max((layer.trace_length_mm for layer in layers), default=0.0)
-    for layer, (hint, source) in zip(layers, hints):
-        layer.fill_ratio = fill_ratio(layer, area)
+    if extent is not None and not isinstance(extent, BoardExtent):
+        extent = BoardExtent(extent, f"{OUTLINE_FROM} the step profile")
+    if extent is None:
+        extent = board_extent(layers, np.zeros((0, 2)))
+    fills = pour_fill(layers, extent)
+    traces = [layer.trace_length_mm for layer in layers]
+    busiest = max(traces, default=0.0)
+    best = max(fills, default=0.0)
+    where = "inside the outline" if extent is not None and extent.is_outline else "inside the board extent"
+    for k, (layer, (hint, source)) in enumerate(zip(layers, hints)):
+        layer.fill_ratio = fills[k]
+        others = fills[:k] + fills[k + 1:]
+        median = float(np.median(others)) if others else 0.0
+        share = traces[k] / busiest if busiest > 0 else 0.0
+        measured = (f"pour fill {fills[k]:.2f} {where} vs {median:.2f} median of the other layers; traces "
+                    f"{traces[k] / 1000:.2f} m, {share:.0%} of the busiest layer's")
+        if notes and notes[k]:
+            measured += f"; {notes[k]}"
         if board_planes is not None:
             layer.kind, layer.kind_source = ("plane" if layer.index in board_planes else "signal"), "board-file"
+            listed = "as a plane" if layer.kind == "plane" else "not as a plane"
+            layer.kind_evidence = f"listed {listed} in the board file"
         elif hint is not None:
             layer.kind, layer.kind_source = hint, source
+            layer.kind_evidence = f"{hint} by {source}; {measured}"
         else:
-            few_traces = busiest <= 0 or layer.trace_length_mm < PLANE_TRACE_SHARE * busiest
-            is_plane = layer.fill_ratio > PLANE_FILL_RATIO and few_traces
+            filled = fills[k] >= PLANE_MIN_FILL and fills[k] >= PLANE_FILL_OF_BEST * best
+            limit = PLANE_TRACE_SHARE if layer.side == "inner" else OUTER_PLANE_TRACE_SHARE
+            is_plane = filled and share < limit
             layer.kind, layer.kind_source = ("plane" if is_plane else "signal"), "fill-ratio"
+            why = ("fill high and few traces" if is_plane else "fill low for this board" if not filled
+                   else f"{'many traces' if layer.side == 'inner' else 'traces on an outer layer'} "
+                        f"(a plane has under {limit:.0%})")
+            layer.kind_evidence = f"{layer.kind}: {why}; {measured}"

@@ -7,6 +7,7 @@ from pathlib import Path
 
 from scanner.errors import InputError, printable
 from scanner.importers.boardfile import BOARD_FILE_NAME
+from scanner.importers.layer_names import HeaderNames, header_names
 
 #: bytes read from each file to recognise its format
 SNIFF_BYTES = 65536
@@ -34,6 +35,7 @@ class SourceFile:
     rel: str  # path relative to the board folder, with forward slashes
     kind: str  # "gerber" | "excellon" | "ipc356" | "job" | "board-file" | "other"
     file_function: tuple[str, ...] | None = None  # X2 ``.FileFunction`` from the header, if any
+    header: HeaderNames | None = None  # Gerber: layer names and stack position its header states
 
     @property
     def is_copper_x2(self) -> bool:
@@ -51,10 +53,11 @@ def sniff(path: Path, name: str, rel: str) -> SourceFile:
     function = None
     if (m := _FILE_FUNCTION.search(head)):
         function = tuple(p.strip() for p in m.group(1).split(","))
-    if path.suffix.lower() in _JOB_SUFFIXES or (head.lstrip().startswith("{") and '"MaterialStackup"' in head):
-        return SourceFile(path, name, rel, "job")
+    if (path.suffix.lower() in _JOB_SUFFIXES or (head.lstrip().startswith("{") and '"MaterialStackup"' in head)
+            or (function and function[0] == "JobInfo" and _GERBER.search(head))):
+        return SourceFile(path, name, rel, "job", function)
     if _GERBER.search(head) and "%" in head:
-        return SourceFile(path, name, rel, "gerber", function)
+        return SourceFile(path, name, rel, "gerber", function, header_names(head))
     if _EXCELLON.search(head):
         return SourceFile(path, name, rel, "excellon", function)
     if _IPC356.search(head):

@@ -13,8 +13,8 @@ import numpy as np
 import shapely
 from matplotlib.collections import LineCollection
 from matplotlib.patches import PathPatch
-from matplotlib.path import Path
 
+from scanner.board.coverage import polygon_path
 from scanner.board.model import Board, CopperLayer, TraceSegments
 from scanner.report import palette
 
@@ -23,20 +23,6 @@ RASTER_ABOVE = 20_000
 Z_BOARD, Z_POUR, Z_TRACE, Z_PAD, Z_OUTLINE = 0.0, 1.0, 2.0, 3.0, 4.0
 
 Window = tuple[float, float, float, float]  # x0, y0, x1, y1 in mm
-
-
-def polygon_path(geometries) -> Path | None:
-    """One compound Path of all polygonal parts of the geometries (exteriors CCW, holes CW)."""
-    parts = shapely.get_parts(np.asarray(geometries, dtype=object))
-    parts = parts[shapely.get_type_id(parts) == 3]
-    parts = parts[~shapely.is_empty(parts)]
-    if len(parts) == 0:
-        return None
-    _, coords, (ring_offsets, _poly_offsets) = shapely.to_ragged_array(shapely.orient_polygons(parts))
-    codes = np.full(len(coords), Path.LINETO, dtype=Path.code_type)
-    codes[ring_offsets[:-1]] = Path.MOVETO
-    codes[ring_offsets[1:] - 1] = Path.CLOSEPOLY
-    return Path(coords, codes)
 
 
 def stroke_bounds(segments: TraceSegments) -> np.ndarray:

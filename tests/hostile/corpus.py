@@ -4,7 +4,8 @@
 IPC-D-356A netlist), a drill file, a profile and a job file with the stackup. Each
 entry of ``CASES`` damages one part of it (or builds an archive, a rules or board file)
 and says which file the one-line error must name, and on which line where that is
-known. Each entry of ``RECOVERABLE`` damages an optional part: the board still loads
+known. Each entry of ``RECOVERABLE`` damages an optional part (the profile, a silkscreen,
+the job file, a drill file, which leaves the import incomplete): the board still loads
 and a warning names what was left out.
 """
 from __future__ import annotations
@@ -252,9 +253,9 @@ def binary_garbage_copper_file(tmp):
     return Case(board_with_bytes(tmp, TOP_FILE, bytes(range(256)) * 16), TOP_FILE, "not a readable")
 
 
-@case
+@recoverable
 def empty_drill_file(tmp):
-    return Case(board_with_bytes(tmp, DRILL_FILE, b""), DRILL_FILE, "empty")
+    return Recoverable(board_with_bytes(tmp, DRILL_FILE, b""), DRILL_FILE, "empty")
 
 
 @case
@@ -263,9 +264,9 @@ def garbage_netlist(tmp):
     return Case(board_with_bytes(tmp, NETLIST_FILE, noise, x2=False), NETLIST_FILE, "not a readable")
 
 
-@case
+@recoverable
 def empty_job_file(tmp):
-    return Case(board_with_bytes(tmp, JOB_FILE, b""), JOB_FILE, "not valid JSON", line=1)
+    return Recoverable(board_with_bytes(tmp, JOB_FILE, b""), f"{JOB_FILE}:1", "not valid JSON")
 
 
 @case
@@ -382,9 +383,10 @@ def format_changed_after_coordinates(tmp):
     return top_case(tmp, "%TO.N,DATA", ["%FSLAX24Y24*%"], "coordinate format changed from 4.6 to 2.4")
 
 
-@case
+@recoverable
 def negative_image_polarity(tmp):
-    return top_case(tmp, "%LPD*%", ["%IPNEG*%"], "negative image polarity")
+    board, _ = top_with(tmp, "%LPD*%", ["%IPNEG*%"])
+    return Recoverable(board, TOP_FILE, "negative image")
 
 
 @case
@@ -425,7 +427,8 @@ def copper_layer_missing_from_x2_numbers(tmp):
 @case
 def job_lists_a_missing_copper_file(tmp):
     inner = {"Path": "board-In1_Cu.gbr", "FileFunction": "Copper,L2,Inr,Signal"}
-    return job_case(tmp, lambda d: d["FilesAttributes"].insert(1, inner), "missing from the board: board-In1_Cu.gbr")
+    board = board_with_job(tmp, lambda d: d["FilesAttributes"].insert(1, inner))
+    return Case(board, JOB_FILE, "missing from the board: board-In1_Cu.gbr")
 
 
 # ---------------------------------------------------------------------------------------- netlists
@@ -480,29 +483,35 @@ def netlist_units_changed_after_records(tmp):
 # ---------------------------------------------------------------------------------------- drill files
 
 
-def drill_case(tmp, lines: list[str], says: str, line: int | None) -> Case:
+def drill_case(tmp, lines: list[str], says: str, line: int | None) -> Recoverable:
+    """A damaged drill file: the board loads without it (incomplete), with a warning naming the file and line."""
+    return Recoverable(board_with(tmp, DRILL_FILE, lines), DRILL_FILE if line is None else f"{DRILL_FILE}:{line}", says)
+
+
+def drill_refused(tmp, lines: list[str], says: str, line: int | None) -> Case:
+    """A drill file that means two things, holds a number out of range, or is another board's: refused with one line."""
     return Case(board_with(tmp, DRILL_FILE, lines), DRILL_FILE, says, line)
 
 
-@case
+@recoverable
 def drill_undefined_tool(tmp):
     lines = drill_lines()
     lines[index_of(lines, "T1") + 3] = "T7"  # the selection after the header
     return drill_case(tmp, lines, "Undefined tool", index_of(lines, "T7") + 1)
 
 
-@case
+@recoverable
 def drill_hole_before_any_tool(tmp):
     lines = [line for line in drill_lines() if not (line.startswith("T") and "C" not in line)]
     return drill_case(tmp, lines, "before any tool", index_of(lines, "X") + 1)
 
 
-@case
+@recoverable
 def drill_truncated(tmp):
     return drill_case(tmp, drill_lines()[:-2], "M30", len(drill_lines()) - 2)
 
 
-@case
+@recoverable
 def drill_absurd_coordinate(tmp):
     lines = drill_lines()
     i = index_of(lines, "X")
@@ -513,27 +522,28 @@ def drill_absurd_coordinate(tmp):
 @case
 def drill_absurd_tool(tmp):
     lines = [line.replace("T1C0.300", "T1C99999999.0") for line in drill_lines()]
-    return drill_case(tmp, lines, "tool diameter", index_of(lines, "X") + 1)
+    return drill_refused(tmp, lines, "tool diameter 1e+08 mm is outside the drill diameter range",
+                         index_of(lines, "X") + 1)
 
 
 @case
 def drill_inch_after_metric_holes(tmp):
     lines = drill_lines()
     lines.insert(index_of(lines, "X") + 1, "INCH")
-    return drill_case(tmp, lines, "unit changed from millimeter to inch after coordinates", index_of(lines, "INCH") + 1)
+    return drill_refused(tmp, lines, "unit changed from millimeter to inch after coordinates", index_of(lines, "INCH") + 1)
 
 
 @case
 def drill_m72_after_metric_holes(tmp):
     lines = drill_lines()
     lines.insert(index_of(lines, "X") + 1, "M72")
-    return drill_case(tmp, lines, "unit changed from millimeter to inch after coordinates", index_of(lines, "M72") + 1)
+    return drill_refused(tmp, lines, "unit changed from millimeter to inch after coordinates", index_of(lines, "M72") + 1)
 
 
 @case
 def drill_holes_all_off_board(tmp):
     """Holes in the wrong units land far from the board: refused, not scored as opens."""
-    return drill_case(tmp, [line.replace("X40.000", "X1016.000") for line in drill_lines()], "units", None)
+    return drill_refused(tmp, [line.replace("X40.000", "X1016.000") for line in drill_lines()], "units", None)
 
 
 @case
@@ -556,7 +566,13 @@ def board_with_job(tmp, edit: Callable[[dict], None]) -> Path:
     return board_with_bytes(tmp, JOB_FILE, json.dumps(data, indent=1).encode())
 
 
-def job_case(tmp, edit: Callable[[dict], None], says: str) -> Case:
+def job_case(tmp, edit: Callable[[dict], None], says: str) -> Recoverable:
+    """A job file that cannot be used: the board loads without it (stackup from the rules), with a warning."""
+    return Recoverable(board_with_job(tmp, edit), JOB_FILE, says)
+
+
+def job_out_of_range(tmp, edit: Callable[[dict], None], says: str) -> Case:
+    """A number outside its physical range refuses the board, even in a file it could do without."""
     return Case(board_with_job(tmp, edit), JOB_FILE, says)
 
 
@@ -566,44 +582,48 @@ def _core(data: dict) -> dict:
 
 @case
 def job_negative_thickness(tmp):
-    return job_case(tmp, lambda d: _core(d).update(Thickness=-0.2), "Thickness -0.2")
+    return job_out_of_range(tmp, lambda d: _core(d).update(Thickness=-0.2),
+                            "Thickness -0.2 mm is outside the dielectric thickness range")
 
 
-@case
+@recoverable
 def job_missing_thickness(tmp):
     return job_case(tmp, lambda d: _core(d).pop("Thickness"), "no Thickness")
 
 
 @case
 def job_zero_thickness(tmp):
-    return job_case(tmp, lambda d: _core(d).update(Thickness=0), "Thickness 0")
+    return job_out_of_range(tmp, lambda d: _core(d).update(Thickness=0),
+                            "Thickness 0 mm is outside the dielectric thickness range")
 
 
 @case
 def job_permittivity_below_one(tmp):
-    return job_case(tmp, lambda d: _core(d).update(DielectricConstant=0.7), "DielectricConstant 0.7")
+    return job_out_of_range(tmp, lambda d: _core(d).update(DielectricConstant=0.7),
+                            "DielectricConstant 0.7 is outside the relative permittivity range")
 
 
 @case
 def job_permittivity_not_a_number(tmp):
-    return job_case(tmp, lambda d: _core(d).update(DielectricConstant="high"), "DielectricConstant 'high'")
+    return job_out_of_range(tmp, lambda d: _core(d).update(DielectricConstant="high"),
+                            "not a finite number, is outside the relative permittivity range")
 
 
-@case
+@recoverable
 def job_missing_permittivity(tmp):
     return job_case(tmp, lambda d: _core(d).pop("DielectricConstant"), "no DielectricConstant")
 
 
-@case
+@recoverable
 def job_stackup_of_wrong_shape(tmp):
     return job_case(tmp, lambda d: d.update(MaterialStackup={"layers": 2}), "not a list")
 
 
-@case
+@recoverable
 def job_not_json(tmp):
     board = write_board(tmp / "board")
     (board / JOB_FILE).write_text('{\n "MaterialStackup": [\n  {"Type": "Copper",, }\n ]\n}\n')
-    return Case(board, JOB_FILE, "not valid JSON", line=3)
+    return Recoverable(board, f"{JOB_FILE}:3", "not valid JSON")
 
 
 # ---------------------------------------------------------------------------------------- rules and board files

@@ -10,7 +10,7 @@ import re
 from pathlib import Path
 
 from scanner.board.model import Board
-from scanner.errors import InputError
+from scanner.errors import InputError, reading
 from scanner.importers.boardfile import BOARD_FILE_NAME, read_board_file
 from scanner.importers.odbpp.archive import extract_job_archive, is_job_archive
 from scanner.importers.odbpp.job import open_job
@@ -64,7 +64,8 @@ class OdbppImporter:
         prefix, sample = next(iter(jobs.items()))
         display = sample.name[: len(sample.name) - len(sample.rel)] + prefix
         job_root = JobFile(root / prefix if prefix else root, display)
-        return read_job(open_job(job_root, self.step), _board_file_planes(files, board_file))
+        with reading(display or "the ODB++ job"):
+            return read_job(open_job(job_root, self.step), _board_file_planes(files, board_file))
 
 
 def load_odbpp(path, step: str | None = None) -> Board:

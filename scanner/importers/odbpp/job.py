@@ -63,7 +63,8 @@ def choose_step(matrix: Matrix, root: JobFile, wanted: str | None) -> str:
     named = [s for s in plain if s.lower() == "pcb"]
     if len(named) == 1:
         return named[0]
-    raise InputError(f"the job has several board steps ({', '.join(steps)}); name the one to read", path=matrix.src.name)
+    raise InputError(f"the job has several board steps ({', '.join(steps)}); name the one to read with --step NAME",
+                     path=matrix.src.name)
 
 
 def open_job(root: JobFile, step: str | None = None) -> Job:

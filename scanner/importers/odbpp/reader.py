@@ -27,9 +27,11 @@ NETTING_METHOD = "odbpp-eda"
 def read_job(job: Job, planes: tuple[list[str], str] | None) -> Board:
     """The board of one job step: copper layers in matrix order, nets from the EDA data, holes, outline, stackup."""
     library = SymbolLibrary(job)
+    unit_warnings = [] if job.units is not None else _units_from_profile(job, library)
     eda_src = job.step_file("eda", "data")
     eda = read_eda(eda_src) if eda_src.path.is_file() else None
-    warnings = [] if eda is not None else [f"{eda_src.name}: no EDA data; nets from copper connectivity only"]
+    warnings = unit_warnings + ([] if eda is not None else
+                                [f"{eda_src.name}: no EDA data; nets from copper connectivity only"])
 
     outline = _outline(job, library)
     copper = job.matrix.copper
@@ -119,6 +121,27 @@ def _plane_indices(planes: tuple[list[str], str] | None, copper: list[MatrixLaye
         raise InputError(f"'planes' names unknown copper layer(s): {', '.join(missing)} (matrix layers: "
                          f"{', '.join(m.name for m in copper)})", path=where)
     return {lookup[p.lower()] for p in planes}
+
+
+#: a step profile smaller than this (mm, read as mm) is taken to be in inches when nothing states the units
+INCH_PROFILE_BELOW = 30.0
+
+
+def _units_from_profile(job: Job, library: SymbolLibrary) -> list[str]:
+    """Default units for a job whose ``misc/info`` states none: the profile's own UNITS line, else its size
+    (a board under INCH_PROFILE_BELOW across when read as mm is in inches). Sets ``job.units``; a warning."""
+    src = job.step_file("profile")
+    if not src.path.is_file():
+        return []  # each features file must then state its units
+    as_mm = parse_features(src, "MM", library, what="step profile")
+    if parse_features(src, "INCH", library, what="step profile").units == as_mm.units:
+        job.units = as_mm.units
+        return [f"{src.name}: the job states no units (misc/info); taken as {job.units} from the profile's UNITS line"]
+    x0, y0, x1, y1 = feature_image(as_mm).bounds if as_mm.count else (0.0, 0.0, 0.0, 0.0)
+    size = max(x1 - x0, y1 - y0)
+    job.units = "INCH" if size < INCH_PROFILE_BELOW else "MM"
+    return [f"{src.name}: no units stated anywhere in the job; taken as {job.units} from the size of the step "
+            f"profile ({size:g} across as numbers); check the board's size"]
 
 
 def _outline(job: Job, library: SymbolLibrary):
