@@ -53,7 +53,7 @@ def _verdict(result: ScanResult) -> Markup:
     near = sm.get("victims_warn", 0)
     off_target = len(result.impedance.stretches) if result.impedance is not None else 0
     more = ([f"{off_target} stretch{'es' if off_target != 1 else ''} off the impedance target."] if off_target else [])
-    more += [f"{near} victims near budget."] if near else []
+    more += [f"{near} victim{'' if near == 1 else 's'} near budget."] if near else []
     more.append(f"{sm.get('findings', len(result.hotspots))} couplings scored on {sm.get('coupled_runs', 0)} "
                 "side-by-side runs.")
     gaps = tag("ul", [tag("li", line) for line in gap_lines(result)], class_="gaps") if result.unchecked else ""
