@@ -10,11 +10,10 @@ from __future__ import annotations
 from typing import Callable
 
 import numpy as np
-import shapely
 
-from scanner.board.layerstack import BoardEnvironments, board_environments
+from scanner.board.layerstack import board_environments
 from scanner.board.model import Board
-from scanner.board.roles import NetRoles, assign_roles
+from scanner.board.roles import NetRoles, assign_roles, reference_nets
 from scanner.coupling.layer_impedance import pair_pieces, signal_layer_table
 from scanner.coupling.stage import find_pieces, find_runs
 from scanner.input_limits import check_finite
@@ -32,7 +31,7 @@ def run_scan(board: Board, rules: Rules | None = None, progress: Progress | None
     say = progress or (lambda _msg: None)
 
     env = board_environments(board, rules.stackup, rules.planes, rules.scan.skip_layers)
-    roles = assign_roles(board.nets, rules, _plane_nets(board, env))
+    roles = assign_roles(board.nets, rules, reference_nets(board, env))
     segments = sum(len(board.layers[i].segments) for i in env.signal)
     with stage("finding coupled runs", f"{segments:,} trace segments on {len(env.signal)} signal layers"), \
             np.errstate(all="ignore"):
@@ -56,7 +55,7 @@ def board_roles(board: Board, rules: Rules | None = None) -> NetRoles:
     by routed geometry), without scoring anything."""
     rules = rules or Rules()
     env = board_environments(board, rules.stackup, rules.planes, rules.scan.skip_layers)
-    roles = assign_roles(board.nets, rules, _plane_nets(board, env))
+    roles = assign_roles(board.nets, rules, reference_nets(board, env))
     return find_pieces(board, env, roles, rules.scan, _least_reach_mm(rules)).roles
 
 
@@ -75,22 +74,3 @@ def _unknown_layer_names(board: Board, rules: Rules) -> list[str]:
             out.append(f"the rules' {key} names {', '.join(unknown)}, which this board does not have "
                        f"(its copper layers: {', '.join(known)}); ignored")
     return out
-
-
-def _plane_nets(board: Board, env: BoardEnvironments) -> set[str]:
-    """Reference nets: every net that owns a pour on a plane layer, and the net owning most copper on a
-    pour that stands in for a plane (the far side of a board without planes; pours drawn as strokes count)."""
-    nets = set()
-    pours = {i for e in env.signal.values() if e.reference.kind == "pour" for i in e.reference.layers}
-    for layer in board.layers:
-        shapes, seg = layer.shapes, layer.segments
-        if layer.index in env.plane_layers and len(shapes):
-            nets.update(board.nets[i] for i in np.unique(shapes.net[shapes.role == "region"]) if i >= 0)
-        elif layer.index in pours:
-            regions = shapes.role == "region"
-            net = np.r_[shapes.net[regions], seg.net]
-            area = np.r_[shapely.area(shapes.geometry[regions]), seg.length_mm * seg.width]
-            owned = net >= 0
-            if owned.any():
-                nets.add(board.nets[int(np.bincount(net[owned], weights=area[owned]).argmax())])
-    return nets

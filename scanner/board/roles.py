@@ -13,7 +13,10 @@ import re
 from dataclasses import dataclass, replace
 
 import numpy as np
+import shapely
 
+from scanner.board.layerstack import BoardEnvironments
+from scanner.board.model import Board
 from scanner.board.netmap import is_synthetic
 from scanner.board.pairing import SOURCES, name_pairs, pattern_pairs
 from scanner.patterns import compile_patterns
@@ -120,3 +123,22 @@ def nearest_names(pattern: str, net_names: list[str], count: int = NEAREST_NAMES
         if matcher.real_quick_ratio() >= NEAREST_SIMILARITY and matcher.ratio() >= NEAREST_SIMILARITY:
             scored.append((-matcher.ratio(), name))
     return [name for _, name in sorted(scored)[:count]]
+
+
+def reference_nets(board: Board, env: BoardEnvironments) -> set[str]:
+    """Reference nets: every net that owns a pour on a plane layer, and the net owning most copper on a
+    pour that stands in for a plane (the far side of a board without planes; pours drawn as strokes count)."""
+    nets = set()
+    pours = {i for e in env.signal.values() if e.reference.kind == "pour" for i in e.reference.layers}
+    for layer in board.layers:
+        shapes, seg = layer.shapes, layer.segments
+        if layer.index in env.plane_layers and len(shapes):
+            nets.update(board.nets[i] for i in np.unique(shapes.net[shapes.role == "region"]) if i >= 0)
+        elif layer.index in pours:
+            regions = shapes.role == "region"
+            net = np.r_[shapes.net[regions], seg.net]
+            area = np.r_[shapely.area(shapes.geometry[regions]), seg.length_mm * seg.width]
+            owned = net >= 0
+            if owned.any():
+                nets.add(board.nets[int(np.bincount(net[owned], weights=area[owned]).argmax())])
+    return nets

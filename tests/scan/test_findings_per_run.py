@@ -7,10 +7,9 @@ import pytest
 
 import scanner
 from scanner.board.layerstack import board_environments
-from scanner.board.roles import assign_roles
+from scanner.board.roles import assign_roles, reference_nets
 from scanner.coupling.stage import find_runs
 from scanner.physics.crosstalk import receiver_gain
-from scanner.pipeline import _plane_nets
 from scanner.report.text import render
 from scanner.rules import load_rules
 from scanner.scoring.peaks import run_peaks
@@ -24,7 +23,7 @@ RULES = load_rules(ROOT / "fixtures/demo-rules.toml")
 def staged():
     board = scanner.load_board(ROOT / "fixtures/demo-board/x2")
     env = board_environments(board, RULES.stackup, RULES.planes, RULES.scan.skip_layers)
-    roles = assign_roles(board.nets, RULES, _plane_nets(board, env))
+    roles = assign_roles(board.nets, RULES, reference_nets(board, env))
     coupled = find_runs(board, env, roles, RULES.scan)
     return board, coupled, score_runs(board, RULES, coupled.roles, env, coupled)
 
